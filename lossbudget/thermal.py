@@ -536,7 +536,7 @@ def solve_coupled(
         iterations[active] = iteration
         bad = np.isnan(power).any(axis=1) | (np.isnan(t_new) | np.isneginf(t_new)).any(axis=1)
         hot = ~bad & (t_new > ceiling).any(axis=1)
-        with np.errstate(invalid="ignore"):
+        with np.errstate(invalid="ignore", divide="ignore"):
             step = np.abs(t_new - t_old).max(axis=1)
             ratio = step / step_prev[active]
             gain = np.maximum(ratio, ratio_prev[active])
