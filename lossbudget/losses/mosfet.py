@@ -798,9 +798,7 @@ def reference_energy_scaled(
 # --------------------------------------------------------------------------------------------
 
 
-def body_diode_conduction_time(
-    t_dead: ArrayLike, *, i: ArrayLike, q_node: ArrayLike
-) -> np.ndarray:
+def body_diode_conduction_time(t_dead: ArrayLike, *, i: ArrayLike, q_node: ArrayLike) -> np.ndarray:
     """Body-diode conduction time within one dead time.
 
     Parameters
