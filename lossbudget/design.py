@@ -397,7 +397,9 @@ class _Reader:
             if key not in allowed:
                 near = difflib.get_close_matches(str(key), allowed, n=1, cutoff=0.5)
                 hint = f" (did you mean {near[0]!r}?)" if near else ""
-                self.problem(_join(path, key), f"unknown key{hint}; valid keys: {', '.join(allowed)}")
+                self.problem(
+                    _join(path, key), f"unknown key{hint}; valid keys: {', '.join(allowed)}"
+                )
         for key in required:
             if key not in raw:
                 self.problem(_join(path, key), "missing required key")
@@ -444,8 +446,9 @@ class _Reader:
             return None  # reported by table()
         return self.quantity(table[key], _join(path, key), **kw)
 
-    def integer(self, table: dict, key: str, path: str, *, default: int | None = None,
-                minimum: int = 1) -> int | None:
+    def integer(
+        self, table: dict, key: str, path: str, *, default: int | None = None, minimum: int = 1
+    ) -> int | None:
         if key not in table:
             return default
         raw = table[key]
@@ -471,15 +474,18 @@ class _Reader:
         self.resolved.append((_join(path, key), f"{raw:g}"))
         return float(raw)
 
-    def choice(self, table: dict, key: str, path: str, options: tuple[str, ...],
-               default: str | None = None) -> str | None:
+    def choice(
+        self, table: dict, key: str, path: str, options: tuple[str, ...], default: str | None = None
+    ) -> str | None:
         if key not in table:
             if default is not None:
                 self.default(_join(path, key), default)
             return default
         raw = table[key]
         if raw not in options:
-            self.problem(_join(path, key), f"expected one of {', '.join(options)}, got {_show(raw)}")
+            self.problem(
+                _join(path, key), f"expected one of {', '.join(options)}, got {_show(raw)}"
+            )
             return None
         self.resolved.append((_join(path, key), str(raw)))
         return raw
@@ -496,42 +502,71 @@ class _Reader:
 
     # ---- corner values and curves ------------------------------------------------------------
 
-    def value(self, raw: Any, path: str, *, dim_key: str, worse: str = "max",
-              positive: bool = True, nonnegative: bool = False) -> Value | None:
+    def value(
+        self,
+        raw: Any,
+        path: str,
+        *,
+        dim_key: str,
+        worse: str = "max",
+        positive: bool = True,
+        nonnegative: bool = False,
+    ) -> Value | None:
         """A plain value or ``{ typ, max }`` (``min`` where lower is worse)."""
         if isinstance(raw, dict):
             other = "min" if worse == "max" else "max"
             tab = self.table(raw, path, allowed=("typ", worse), required=("typ",))
             if other in raw:
                 self.problems.pop()  # replace the generic unknown-key line
-                self.problem(_join(path, other),
-                             f"expected {worse!r} for this parameter ({'higher' if worse == 'max' else 'lower'} is worse)")
+                self.problem(
+                    _join(path, other),
+                    f"expected {worse!r} for this parameter ({'higher' if worse == 'max' else 'lower'} is worse)",
+                )
             if tab is None or "typ" not in tab:
                 return None
-            typ = self.quantity(tab["typ"], _join(path, "typ"), dim_key=dim_key,
-                                positive=positive, nonnegative=nonnegative)
-            bad = self.optional(tab, worse, path, dim_key=dim_key, positive=positive,
-                                nonnegative=nonnegative)
+            typ = self.quantity(
+                tab["typ"],
+                _join(path, "typ"),
+                dim_key=dim_key,
+                positive=positive,
+                nonnegative=nonnegative,
+            )
+            bad = self.optional(
+                tab, worse, path, dim_key=dim_key, positive=positive, nonnegative=nonnegative
+            )
             if typ is None:
                 return None
             if bad is None:
                 return Value(typ=typ, worst=typ)
             if (worse == "max" and bad < typ) or (worse == "min" and bad > typ):
-                self.problem(_join(path, worse),
-                             f"expected {worse} {'>=' if worse == 'max' else '<='} typ "
-                             f"({_show(tab['typ'])}), got {_show(tab[worse])}")
+                self.problem(
+                    _join(path, worse),
+                    f"expected {worse} {'>=' if worse == 'max' else '<='} typ "
+                    f"({_show(tab['typ'])}), got {_show(tab[worse])}",
+                )
                 return None
             return Value(typ=typ, worst=bad)
         x = self.quantity(raw, path, dim_key=dim_key, positive=positive, nonnegative=nonnegative)
         return None if x is None else Value(typ=x, worst=x)
 
-    def curve(self, raw: Any, path: str, *, letter: str, worse: str = "max",
-              extra: dict[str, str] | None = None, positive: bool = True,
-              nonnegative: bool = False) -> tuple[Curve, list[dict]] | None:
+    def curve(
+        self,
+        raw: Any,
+        path: str,
+        *,
+        letter: str,
+        worse: str = "max",
+        extra: dict[str, str] | None = None,
+        positive: bool = True,
+        nonnegative: bool = False,
+    ) -> tuple[Curve, list[dict]] | None:
         """A temperature curve: one value (at 25 degC), one point table, or a list of points."""
         generic = path.split(".", 1)
-        base = path if not path.startswith(("capacitor[", "resistor[")) else (
-            generic[0].split("[")[0] + "." + generic[1])
+        base = (
+            path
+            if not path.startswith(("capacitor[", "resistor["))
+            else (generic[0].split("[")[0] + "." + generic[1])
+        )
         value_key = f"{base}[].{letter}"
         at_key = f"{base}[].at"
         extra = extra or {}
@@ -543,8 +578,14 @@ class _Reader:
         elif isinstance(raw, dict):
             points_raw = [raw]
         else:
-            v = self.value(raw, path, dim_key=value_key, worse=worse, positive=positive,
-                           nonnegative=nonnegative)
+            v = self.value(
+                raw,
+                path,
+                dim_key=value_key,
+                worse=worse,
+                positive=positive,
+                nonnegative=nonnegative,
+            )
             if v is None:
                 return None
             self.default(f"{path}.at", "25 degC")
@@ -564,9 +605,14 @@ class _Reader:
                 self.problem(ppath, f"expected the value as '{letter}' (or 'typ'), once")
                 ok = False
                 continue
-            v = self.value({"typ": tab[keys[0]], **({worse: tab[worse]} if worse in tab else {})},
-                           _join(ppath, keys[0]), dim_key=value_key, worse=worse,
-                           positive=positive, nonnegative=nonnegative)
+            v = self.value(
+                {"typ": tab[keys[0]], **({worse: tab[worse]} if worse in tab else {})},
+                _join(ppath, keys[0]),
+                dim_key=value_key,
+                worse=worse,
+                positive=positive,
+                nonnegative=nonnegative,
+            )
             if "at" in tab:
                 t = self.quantity(tab["at"], _join(ppath, "at"), dim_key=at_key)
             elif len(points_raw) == 1:
@@ -625,17 +671,21 @@ def _thermal(rd: _Reader, raw: Any, path: str, *, semiconductor: bool) -> PartTh
     if tab is None:
         return None
     if "psi_jt" in tab:
-        rd.problem(_join(path, "psi_jt"),
-                   "psi_jt is a thermal characterisation parameter (JEDEC JESD51-2), not a "
-                   "resistance; give rth_jc with rth_cs, rth_jb, or rth_ha instead")
+        rd.problem(
+            _join(path, "psi_jt"),
+            "psi_jt is a thermal characterisation parameter (JEDEC JESD51-2), not a "
+            "resistance; give rth_jc with rth_cs, rth_jb, or rth_ha instead",
+        )
     vals = {}
     for key in ("rth_jc", "rth_cs", "rth_jb", "rth_ja", "rth_ha"):
         vals[key] = rd.optional(tab, key, path, dim_key=f"switch.thermal.{key}")
     sink = rd.text(tab, "sink", path)
     if vals["rth_ja"] is not None and semiconductor:
-        rd.warn(_join(path, "rth_ja"),
-                "a datasheet theta-JA describes the JEDEC test board (JESD51-2), not this "
-                "board; used as a path to ambient all the same")
+        rd.warn(
+            _join(path, "rth_ja"),
+            "a datasheet theta-JA describes the JEDEC test board (JESD51-2), not this "
+            "board; used as a path to ambient all the same",
+        )
     if sink is not None and all(vals[k] is None for k in ("rth_jc", "rth_jb")):
         rd.problem(path, "expected rth_jc or rth_jb for the path to the sink")
     if sink is None and vals["rth_ha"] is None and vals["rth_ja"] is None:
@@ -679,8 +729,9 @@ def _recovery(rd: _Reader, raw: Any, path: str) -> Recovery | None:
 
 
 def _ref_energy(rd: _Reader, raw: Any, path: str) -> ReferenceEnergy | None:
-    tab = rd.table(raw, path, allowed=("e", "at_v", "at_i", "includes"),
-                   required=("e", "at_v", "at_i"))
+    tab = rd.table(
+        raw, path, allowed=("e", "at_v", "at_i", "includes"), required=("e", "at_v", "at_i")
+    )
     if tab is None or any(k not in tab for k in ("e", "at_v", "at_i")):
         return None
     e = rd.value(tab["e"], _join(path, "e"), dim_key=_gkey(path, "e"))
@@ -690,8 +741,10 @@ def _ref_energy(rd: _Reader, raw: Any, path: str) -> ReferenceEnergy | None:
     if "includes" in tab:
         inc = tab["includes"]
         if not isinstance(inc, list) or any(x not in ("coss", "reverse_recovery") for x in inc):
-            rd.problem(_join(path, "includes"),
-                       f'expected a list of "coss", "reverse_recovery", got {_show(inc)}')
+            rd.problem(
+                _join(path, "includes"),
+                f'expected a list of "coss", "reverse_recovery", got {_show(inc)}',
+            )
         else:
             includes = tuple(inc)
     if e is None or at_v is None or at_i is None:
@@ -699,10 +752,37 @@ def _ref_energy(rd: _Reader, raw: Any, path: str) -> ReferenceEnergy | None:
     return ReferenceEnergy(e=e, at_v=at_v, at_i=at_i, includes=includes)
 
 
-_MOSFET_ALLOWED = ("count", "vds_rated", "rds_on", "v_th", "v_plateau", "qg", "qgs", "qgd",
-                   "qgs2", "rg", "qoss", "eoss", "eon", "eoff", "body_diode", "tj_max", "thermal")
-_MOSFET_REQUIRED = ("vds_rated", "rds_on", "v_th", "v_plateau", "qg", "qgs", "qgd", "rg",
-                    "tj_max", "thermal")
+_MOSFET_ALLOWED = (
+    "count",
+    "vds_rated",
+    "rds_on",
+    "v_th",
+    "v_plateau",
+    "qg",
+    "qgs",
+    "qgd",
+    "qgs2",
+    "rg",
+    "qoss",
+    "eoss",
+    "eon",
+    "eoff",
+    "body_diode",
+    "tj_max",
+    "thermal",
+)
+_MOSFET_REQUIRED = (
+    "vds_rated",
+    "rds_on",
+    "v_th",
+    "v_plateau",
+    "qg",
+    "qgs",
+    "qgd",
+    "rg",
+    "tj_max",
+    "thermal",
+)
 
 
 def _mosfet(rd: _Reader, raw: Any, path: str, *, sync: bool) -> Mosfet | None:
@@ -714,15 +794,20 @@ def _mosfet(rd: _Reader, raw: Any, path: str, *, sync: bool) -> Mosfet | None:
     rds = None
     v_gs = None
     if "rds_on" in tab:
-        got = rd.curve(tab["rds_on"], _join(path, "rds_on"), letter="r",
-                       extra={"v_gs": "switch.rds_on[].v_gs"})
+        got = rd.curve(
+            tab["rds_on"], _join(path, "rds_on"), letter="r", extra={"v_gs": "switch.rds_on[].v_gs"}
+        )
         if got is not None:
             rds, extras = got
             v_gs = next((e["v_gs"] for e in extras if e.get("v_gs") is not None), None)
-    g = {k: rd.required(tab, k, path, dim_key=f"switch.{k}") for k in ("v_th", "v_plateau", "rg",
-                                                                        "tj_max")}
-    q = {k: (rd.value(tab[k], _join(path, k), dim_key=f"switch.{k}") if k in tab else None)
-         for k in ("qg", "qgs", "qgd", "qgs2")}
+    g = {
+        k: rd.required(tab, k, path, dim_key=f"switch.{k}")
+        for k in ("v_th", "v_plateau", "rg", "tj_max")
+    }
+    q = {
+        k: (rd.value(tab[k], _join(path, k), dim_key=f"switch.{k}") if k in tab else None)
+        for k in ("qg", "qgs", "qgd", "qgs2")
+    }
     if g["v_th"] is not None and g["v_plateau"] is not None and g["v_plateau"] <= g["v_th"]:
         rd.problem(_join(path, "v_plateau"), "expected v_plateau above v_th")
     if q["qg"] and q["qgs"] and q["qgd"] and q["qg"].typ < q["qgs"].typ + q["qgd"].typ:
@@ -738,47 +823,93 @@ def _mosfet(rd: _Reader, raw: Any, path: str, *, sync: bool) -> Mosfet | None:
         if btab is not None and "vsd" in btab:
             got = rd.curve(btab["vsd"], _join(bpath, "vsd"), letter="v")
             qrr = _recovery(rd, btab["qrr"], _join(bpath, "qrr")) if "qrr" in btab else None
-            erec = (rd.value(btab["erec"], _join(bpath, "erec"), dim_key="switch.body_diode.erec")
-                    if "erec" in btab else None)
+            erec = (
+                rd.value(btab["erec"], _join(bpath, "erec"), dim_key="switch.body_diode.erec")
+                if "erec" in btab
+                else None
+            )
             if got is not None:
                 body = BodyDiode(vsd=got[0], qrr=qrr, erec=erec)
     elif sync:
         rd.default(_join(path, "body_diode"), "not given: dead time and recovery not modelled")
-    thermal = _thermal(rd, tab["thermal"], _join(path, "thermal"), semiconductor=True) \
-        if "thermal" in tab else None
+    thermal = (
+        _thermal(rd, tab["thermal"], _join(path, "thermal"), semiconductor=True)
+        if "thermal" in tab
+        else None
+    )
     needed = [count, vds, rds, thermal, *g.values(), q["qg"], q["qgs"], q["qgd"]]
     if any(x is None for x in needed):
         return None
-    return Mosfet(count=count, vds_rated=vds, rds_on=rds, rds_on_v_gs=v_gs, v_th=g["v_th"],
-                  v_plateau=g["v_plateau"], qg=q["qg"], qgs=q["qgs"], qgd=q["qgd"],
-                  qgs2=q["qgs2"], rg=g["rg"], qoss=qoss, eoss=eoss, eon=eon, eoff=eoff,
-                  body_diode=body, tj_max=g["tj_max"], thermal=thermal)
+    return Mosfet(
+        count=count,
+        vds_rated=vds,
+        rds_on=rds,
+        rds_on_v_gs=v_gs,
+        v_th=g["v_th"],
+        v_plateau=g["v_plateau"],
+        qg=q["qg"],
+        qgs=q["qgs"],
+        qgd=q["qgd"],
+        qgs2=q["qgs2"],
+        rg=g["rg"],
+        qoss=qoss,
+        eoss=eoss,
+        eon=eon,
+        eoff=eoff,
+        body_diode=body,
+        tj_max=g["tj_max"],
+        thermal=thermal,
+    )
 
 
-_DIODE_ALLOWED = ("count", "vr_rated", "vf0", "rd", "qc", "qrr", "erec", "leakage", "tj_max",
-                  "thermal")
+_DIODE_ALLOWED = (
+    "count",
+    "vr_rated",
+    "vf0",
+    "rd",
+    "qc",
+    "qrr",
+    "erec",
+    "leakage",
+    "tj_max",
+    "thermal",
+)
 
 
 def _diode(rd: _Reader, raw: Any, path: str) -> Diode | None:
-    tab = rd.table(raw, path, allowed=_DIODE_ALLOWED,
-                   required=("vr_rated", "vf0", "rd", "tj_max", "thermal"))
+    tab = rd.table(
+        raw, path, allowed=_DIODE_ALLOWED, required=("vr_rated", "vf0", "rd", "tj_max", "thermal")
+    )
     if tab is None:
         return None
     count = rd.integer(tab, "count", path, default=1)
     vr = rd.required(tab, "vr_rated", path, dim_key="rectifier.vr_rated")
-    vf0 = rd.curve(tab["vf0"], _join(path, "vf0"), letter="v", nonnegative=True) \
-        if "vf0" in tab else None
-    rdd = rd.curve(tab["rd"], _join(path, "rd"), letter="r", nonnegative=True) \
-        if "rd" in tab else None
+    vf0 = (
+        rd.curve(tab["vf0"], _join(path, "vf0"), letter="v", nonnegative=True)
+        if "vf0" in tab
+        else None
+    )
+    rdd = (
+        rd.curve(tab["rd"], _join(path, "rd"), letter="r", nonnegative=True)
+        if "rd" in tab
+        else None
+    )
     qc = _at_voltage(rd, tab["qc"], _join(path, "qc"), "q") if "qc" in tab else None
     qrr = _recovery(rd, tab["qrr"], _join(path, "qrr")) if "qrr" in tab else None
-    erec = rd.value(tab["erec"], _join(path, "erec"), dim_key="rectifier.erec") \
-        if "erec" in tab else None
+    erec = (
+        rd.value(tab["erec"], _join(path, "erec"), dim_key="rectifier.erec")
+        if "erec" in tab
+        else None
+    )
     leak = None
     if "leakage" in tab:
         lpath = _join(path, "leakage")
-        ltab = rd.table(tab["leakage"], lpath, allowed=("i", "at", "at_v", "doubles_every"),
-                        required=("i", "at_v"))
+        ltab = rd.table(
+            tab["leakage"],
+            lpath,
+            allowed=("i", "at", "at_v", "doubles_every"),
+            required=("i", "at_v"),
+        )
         if ltab is not None and "i" in ltab and "at_v" in ltab:
             i = rd.value(ltab["i"], _join(lpath, "i"), dim_key="rectifier.leakage.i")
             at = rd.optional(ltab, "at", lpath, dim_key="rectifier.leakage.at")
@@ -786,20 +917,34 @@ def _diode(rd: _Reader, raw: Any, path: str) -> Diode | None:
                 at = T_REF_DEFAULT
                 rd.default(_join(lpath, "at"), "25 degC")
             at_v = rd.optional(ltab, "at_v", lpath, dim_key="rectifier.leakage.at_v")
-            dbl = rd.optional(ltab, "doubles_every", lpath,
-                              dim_key="rectifier.leakage.doubles_every")
+            dbl = rd.optional(
+                ltab, "doubles_every", lpath, dim_key="rectifier.leakage.doubles_every"
+            )
             if dbl is None and "doubles_every" not in ltab:
                 dbl = 10.0
                 rd.default(_join(lpath, "doubles_every"), "10 K (common practice)")
             if None not in (i, at, at_v, dbl):
                 leak = Leakage(i=i, at=at, at_v=at_v, doubles_every=dbl)
     tj = rd.required(tab, "tj_max", path, dim_key="rectifier.tj_max")
-    thermal = _thermal(rd, tab["thermal"], _join(path, "thermal"), semiconductor=True) \
-        if "thermal" in tab else None
+    thermal = (
+        _thermal(rd, tab["thermal"], _join(path, "thermal"), semiconductor=True)
+        if "thermal" in tab
+        else None
+    )
     if any(x is None for x in (count, vr, vf0, rdd, tj, thermal)):
         return None
-    return Diode(count=count, vr_rated=vr, vf0=vf0[0], rd=rdd[0], qc=qc, qrr=qrr, erec=erec,
-                 leakage=leak, tj_max=tj, thermal=thermal)
+    return Diode(
+        count=count,
+        vr_rated=vr,
+        vf0=vf0[0],
+        rd=rdd[0],
+        qc=qc,
+        qrr=qrr,
+        erec=erec,
+        leakage=leak,
+        tj_max=tj,
+        thermal=thermal,
+    )
 
 
 def _range(rd: _Reader, raw: Any, path: str, *, positive: bool = True) -> Range | None:
@@ -818,8 +963,10 @@ def _range(rd: _Reader, raw: Any, path: str, *, positive: bool = True) -> Range 
         if None in (lo, hi, nom):
             return None
         if lo > hi:
-            rd.problem(path, f"expected min <= max, got min {_show(tab['min'])} above max "
-                             f"{_show(tab['max'])}")
+            rd.problem(
+                path,
+                f"expected min <= max, got min {_show(tab['min'])} above max {_show(tab['max'])}",
+            )
             return None
         if not lo <= nom <= hi:
             rd.problem(_join(path, "nom"), "expected nom between min and max")
@@ -831,10 +978,23 @@ def _range(rd: _Reader, raw: Any, path: str, *, positive: bool = True) -> Range 
 
 def _operating(rd: _Reader, raw: Any, topology: str | None) -> Operating | None:
     path = "operating"
-    tab = rd.table(raw, path,
-                   allowed=("vin", "vout", "iout_rated", "fsw", "ambient", "max_duty",
-                            "min_on_time", "min_off_time", "i_limit", "dcm_turn_on"),
-                   required=("vin", "vout", "iout_rated", "fsw", "ambient"))
+    tab = rd.table(
+        raw,
+        path,
+        allowed=(
+            "vin",
+            "vout",
+            "iout_rated",
+            "fsw",
+            "ambient",
+            "max_duty",
+            "min_on_time",
+            "min_off_time",
+            "i_limit",
+            "dcm_turn_on",
+        ),
+        required=("vin", "vout", "iout_rated", "fsw", "ambient"),
+    )
     if tab is None:
         return None
     vin = _range(rd, tab["vin"], "operating.vin") if "vin" in tab else None
@@ -843,8 +1003,10 @@ def _operating(rd: _Reader, raw: Any, topology: str | None) -> Operating | None:
         vout = _range(rd, tab["vout"], "operating.vout", positive=False)
         if vout is not None:
             if topology == "buck-boost" and vout.max >= 0:
-                rd.problem("operating.vout", "expected a negative output for the inverting "
-                                             "buck-boost (for example \"-15 V\")")
+                rd.problem(
+                    "operating.vout",
+                    'expected a negative output for the inverting buck-boost (for example "-15 V")',
+                )
                 vout = None
             elif topology in ("boost", "buck") and vout.min <= 0:
                 rd.problem("operating.vout", f"expected a positive output for the {topology}")
@@ -855,8 +1017,9 @@ def _operating(rd: _Reader, raw: Any, topology: str | None) -> Operating | None:
     if "max_duty" in tab:
         max_duty = rd.quantity(tab["max_duty"], "operating.max_duty")
         if max_duty is not None and not 0 < max_duty < 1:
-            rd.problem("operating.max_duty", f"expected a fraction in (0, 1), got "
-                                             f"{_show(tab['max_duty'])}")
+            rd.problem(
+                "operating.max_duty", f"expected a fraction in (0, 1), got {_show(tab['max_duty'])}"
+            )
             max_duty = None
     else:
         max_duty = 0.95
@@ -867,25 +1030,53 @@ def _operating(rd: _Reader, raw: Any, topology: str | None) -> Operating | None:
     dcm = rd.choice(tab, "dcm_turn_on", path, DCM_TURN_ONS, default="settled")
     if vin is not None and vout is not None and topology is not None:
         if topology == "buck" and vout.min >= vin.max:
-            rd.problem("operating.vout", f"a buck cannot reach vout {format_quantity(vout.min, 'voltage')} "
-                                         f"from at most {format_quantity(vin.max, 'voltage')}: "
-                                         "expected vout below vin.max")
+            rd.problem(
+                "operating.vout",
+                f"a buck cannot reach vout {format_quantity(vout.min, 'voltage')} "
+                f"from at most {format_quantity(vin.max, 'voltage')}: "
+                "expected vout below vin.max",
+            )
         if topology == "boost" and vout.max <= vin.min:
-            rd.problem("operating.vout", f"a boost cannot make vout {format_quantity(vout.max, 'voltage')} "
-                                         f"from at least {format_quantity(vin.min, 'voltage')}: "
-                                         "expected vout above vin.min")
+            rd.problem(
+                "operating.vout",
+                f"a boost cannot make vout {format_quantity(vout.max, 'voltage')} "
+                f"from at least {format_quantity(vin.min, 'voltage')}: "
+                "expected vout above vin.min",
+            )
     if None in (vin, vout, iout, fsw, amb, max_duty, dcm):
         return None
-    return Operating(vin=vin, vout=vout, iout_rated=iout, fsw=fsw, ambient=amb,
-                     max_duty=max_duty, min_on_time=t_on or 0.0, min_off_time=t_off or 0.0,
-                     i_limit=i_lim, dcm_turn_on=dcm)
+    return Operating(
+        vin=vin,
+        vout=vout,
+        iout_rated=iout,
+        fsw=fsw,
+        ambient=amb,
+        max_duty=max_duty,
+        min_on_time=t_on or 0.0,
+        min_off_time=t_off or 0.0,
+        i_limit=i_lim,
+        dcm_turn_on=dcm,
+    )
 
 
 def _driver(rd: _Reader, raw: Any, rect_kind: str | None) -> Driver | None:
     path = "driver"
-    tab = rd.table(raw, path, allowed=("v_drive", "v_aux", "r_source", "r_sink", "rg_on",
-                                       "rg_off", "supply", "quiescent", "dead_time"),
-                   required=("v_drive", "r_source", "r_sink"))
+    tab = rd.table(
+        raw,
+        path,
+        allowed=(
+            "v_drive",
+            "v_aux",
+            "r_source",
+            "r_sink",
+            "rg_on",
+            "rg_off",
+            "supply",
+            "quiescent",
+            "dead_time",
+        ),
+        required=("v_drive", "r_source", "r_sink"),
+    )
     if tab is None:
         return None
     vals = {k: rd.optional(tab, k, path) for k in ("v_drive", "r_source", "r_sink")}
@@ -904,28 +1095,41 @@ def _driver(rd: _Reader, raw: Any, rect_kind: str | None) -> Driver | None:
         rd.default("driver.quiescent", "not given: controller bias not modelled")
     dead = rd.optional(tab, "dead_time", path, nonnegative=True)
     if dead is not None and rect_kind == "diode":
-        rd.problem("driver.dead_time", "a dead time needs a synchronous rectifier "
-                                       "(design.rectifier = \"sync\")")
+        rd.problem(
+            "driver.dead_time",
+            'a dead time needs a synchronous rectifier (design.rectifier = "sync")',
+        )
     if rect_kind == "sync" and "dead_time" not in tab:
         rd.default("driver.dead_time", "not given: dead-time conduction not modelled")
     if any(vals[k] is None for k in vals) or supply is None:
         return None
-    return Driver(v_drive=vals["v_drive"], r_source=vals["r_source"], r_sink=vals["r_sink"],
-                  rg_on=vals["rg_on"], rg_off=vals["rg_off"], supply=supply,
-                  v_aux=v_aux, quiescent=quiescent if quiescent is not None else math.nan,
-                  dead_time=dead)
+    return Driver(
+        v_drive=vals["v_drive"],
+        r_source=vals["r_source"],
+        r_sink=vals["r_sink"],
+        rg_on=vals["rg_on"],
+        rg_off=vals["rg_off"],
+        supply=supply,
+        v_aux=v_aux,
+        quiescent=quiescent if quiescent is not None else math.nan,
+        dead_time=dead,
+    )
 
 
 def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
     path = "inductor"
-    tab = rd.table(raw, path, allowed=("count", "l", "dcr", "i_sat", "t_max", "core", "winding",
-                                       "thermal"),
-                   required=("l", "dcr", "t_max", "thermal"))
+    tab = rd.table(
+        raw,
+        path,
+        allowed=("count", "l", "dcr", "i_sat", "t_max", "core", "winding", "thermal"),
+        required=("l", "dcr", "t_max", "thermal"),
+    )
     if tab is None:
         return None
     count = rd.integer(tab, "count", path, default=1)
-    l_val = rd.value(tab["l"], "inductor.l", dim_key="inductor.l", worse="min") \
-        if "l" in tab else None
+    l_val = (
+        rd.value(tab["l"], "inductor.l", dim_key="inductor.l", worse="min") if "l" in tab else None
+    )
     dcr = None
     dcr_at = T_REF_DEFAULT
     if "dcr" in tab:
@@ -949,23 +1153,38 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
     t_max = rd.required(tab, "t_max", path)
     core = _core(rd, tab["core"]) if "core" in tab else None
     winding = _winding(rd, tab["winding"]) if "winding" in tab else None
-    thermal = _thermal(rd, tab["thermal"], "inductor.thermal", semiconductor=False) \
-        if "thermal" in tab else None
+    thermal = (
+        _thermal(rd, tab["thermal"], "inductor.thermal", semiconductor=False)
+        if "thermal" in tab
+        else None
+    )
     if any(x is None for x in (count, l_val, dcr, dcr_at, t_max, thermal)):
         return None
     if "core" in tab and core is None:
         return None
     if "winding" in tab and winding is None:
         return None
-    return Inductor(count=count, l=l_val, dcr=dcr, dcr_at=dcr_at, i_sat=i_sat, t_max=t_max,
-                    core=core, winding=winding, thermal=thermal)
+    return Inductor(
+        count=count,
+        l=l_val,
+        dcr=dcr,
+        dcr_at=dcr_at,
+        i_sat=i_sat,
+        t_max=t_max,
+        core=core,
+        winding=winding,
+        thermal=thermal,
+    )
 
 
 def _core(rd: _Reader, raw: Any) -> Core | None:
     path = "inductor.core"
-    tab = rd.table(raw, path, allowed=("ve", "ae", "turns", "k", "alpha", "beta", "ct",
-                                       "fit_range", "b_sat", "k_units"),
-                   required=("ve", "ae", "turns", "k", "alpha", "beta"))
+    tab = rd.table(
+        raw,
+        path,
+        allowed=("ve", "ae", "turns", "k", "alpha", "beta", "ct", "fit_range", "b_sat", "k_units"),
+        required=("ve", "ae", "turns", "k", "alpha", "beta"),
+    )
     if tab is None:
         return None
     ve = rd.required(tab, "ve", path)
@@ -986,9 +1205,14 @@ def _core(rd: _Reader, raw: Any) -> Core | None:
     ct = None
     if "ct" in tab:
         c = tab["ct"]
-        if (not isinstance(c, list) or len(c) != 3
-                or any(isinstance(x, bool) or not isinstance(x, int | float) for x in c)):
-            rd.problem("inductor.core.ct", f"expected three numbers [ct0, ct1, ct2], got {_show(c)}")
+        if (
+            not isinstance(c, list)
+            or len(c) != 3
+            or any(isinstance(x, bool) or not isinstance(x, int | float) for x in c)
+        ):
+            rd.problem(
+                "inductor.core.ct", f"expected three numbers [ct0, ct1, ct2], got {_show(c)}"
+            )
         else:
             ct = (float(c[0]), float(c[1]), float(c[2]))
             rd.resolved.append(("inductor.core.ct", ", ".join(f"{x:g}" for x in ct)))
@@ -1000,8 +1224,18 @@ def _core(rd: _Reader, raw: Any) -> Core | None:
             fit_b = _pair(rd, ftab, "b", "inductor.core.fit_range")
     if None in (ve, ae, turns, k, alpha, beta):
         return None
-    return Core(ve=ve, ae=ae, turns=turns, k=k, alpha=alpha, beta=beta, ct=ct, fit_f=fit_f,
-                fit_b=fit_b, b_sat=b_sat)
+    return Core(
+        ve=ve,
+        ae=ae,
+        turns=turns,
+        k=k,
+        alpha=alpha,
+        beta=beta,
+        ct=ct,
+        fit_f=fit_f,
+        fit_b=fit_b,
+        b_sat=b_sat,
+    )
 
 
 def _pair(rd: _Reader, tab: dict, key: str, path: str) -> tuple[float, float] | None:
@@ -1031,8 +1265,10 @@ def _winding(rd: _Reader, raw: Any) -> Winding | None:
     d = rd.optional(tab, "wire_diameter", path)
     por = rd.optional(tab, "porosity", path)
     if por is not None and not 0 < por <= 1:
-        rd.problem("inductor.winding.porosity", f"expected a porosity in (0, 1], got "
-                                                f"{_show(tab['porosity'])}")
+        rd.problem(
+            "inductor.winding.porosity",
+            f"expected a porosity in (0, 1], got {_show(tab['porosity'])}",
+        )
         por = None
     rac = rd.number(tab, "rac_rdc", path)
     if rac is not None and rac < 1:
@@ -1045,12 +1281,16 @@ def _winding(rd: _Reader, raw: Any) -> Winding | None:
     geometry = [k for k in ("layers", "wire_diameter", "porosity") if k in tab]
     if rac is None and "rac_rdc" not in tab and 0 < len(geometry) < 3:
         missing = [k for k in ("layers", "wire_diameter", "porosity") if k not in tab]
-        rd.problem(path, f"expected layers, wire_diameter and porosity together; missing "
-                         f"{', '.join(missing)}")
+        rd.problem(
+            path,
+            f"expected layers, wire_diameter and porosity together; missing {', '.join(missing)}",
+        )
         return None
     if "rac_rdc" in tab and geometry:
-        rd.problem(path, "expected either rac_rdc or the geometry (layers, wire_diameter, "
-                         "porosity), not both")
+        rd.problem(
+            path,
+            "expected either rac_rdc or the geometry (layers, wire_diameter, porosity), not both",
+        )
         return None
     if "rac_rdc" in tab and "layers" not in tab:
         pass
@@ -1058,21 +1298,41 @@ def _winding(rd: _Reader, raw: Any) -> Winding | None:
 
 
 def _capacitor(rd: _Reader, raw: Any, path: str) -> Capacitor | None:
-    tab = rd.table(raw, path, allowed=("name", "position", "c", "c_bias", "esr", "count",
-                                       "v_rated", "i_ripple_rated", "t_max", "life", "thermal"),
-                   required=("name", "position", "c", "esr", "v_rated", "t_max", "thermal"))
+    tab = rd.table(
+        raw,
+        path,
+        allowed=(
+            "name",
+            "position",
+            "c",
+            "c_bias",
+            "esr",
+            "count",
+            "v_rated",
+            "i_ripple_rated",
+            "t_max",
+            "life",
+            "thermal",
+        ),
+        required=("name", "position", "c", "esr", "v_rated", "t_max", "thermal"),
+    )
     if tab is None:
         return None
     name = rd.text(tab, "name", path)
     pos = rd.choice(tab, "position", path, ("input", "output"))
     count = rd.integer(tab, "count", path, default=1)
-    c = rd.value(tab["c"], _join(path, "c"), dim_key="capacitor.c", worse="min") \
-        if "c" in tab else None
+    c = (
+        rd.value(tab["c"], _join(path, "c"), dim_key="capacitor.c", worse="min")
+        if "c" in tab
+        else None
+    )
     c_bias: tuple[tuple[float, float], ...] = ()
     if "c_bias" in tab:
         cb = tab["c_bias"]
         if not isinstance(cb, list) or not cb:
-            rd.problem(_join(path, "c_bias"), f"expected a list of {{ c, at_v }} points, got {_show(cb)}")
+            rd.problem(
+                _join(path, "c_bias"), f"expected a list of {{ c, at_v }} points, got {_show(cb)}"
+            )
         else:
             pts = []
             for n, p in enumerate(cb):
@@ -1081,16 +1341,21 @@ def _capacitor(rd: _Reader, raw: Any, path: str) -> Capacitor | None:
                 if pt is None or "c" not in pt or "at_v" not in pt:
                     continue
                 cv = rd.quantity(pt["c"], _join(ppath, "c"), dim_key="capacitor.c_bias[].c")
-                vv = rd.quantity(pt["at_v"], _join(ppath, "at_v"),
-                                 dim_key="capacitor.c_bias[].at_v", nonnegative=True)
+                vv = rd.quantity(
+                    pt["at_v"],
+                    _join(ppath, "at_v"),
+                    dim_key="capacitor.c_bias[].at_v",
+                    nonnegative=True,
+                )
                 if cv is not None and vv is not None:
                     pts.append((vv, cv))
             c_bias = tuple(sorted(pts))
     esr = None
     esr_f = None
     if "esr" in tab:
-        got = rd.curve(tab["esr"], _join(path, "esr"), letter="r",
-                       extra={"at_f": "capacitor.esr[].at_f"})
+        got = rd.curve(
+            tab["esr"], _join(path, "esr"), letter="r", extra={"at_f": "capacitor.esr[].at_f"}
+        )
         if got is not None:
             esr = got[0]
             esr_f = next((e["at_f"] for e in got[1] if e.get("at_f") is not None), None)
@@ -1106,35 +1371,54 @@ def _capacitor(rd: _Reader, raw: Any, path: str) -> Capacitor | None:
             f = rd.optional(rt, "at_f", rpath, dim_key="capacitor.i_ripple_rated.at_f")
             at = rd.optional(rt, "at", rpath, dim_key="capacitor.i_ripple_rated.at")
             if i is not None:
-                ripple = RippleRating(i=i, at_f=f if f is not None else math.nan,
-                                      at=at if at is not None else math.nan)
+                ripple = RippleRating(
+                    i=i,
+                    at_f=f if f is not None else math.nan,
+                    at=at if at is not None else math.nan,
+                )
     t_max = rd.required(tab, "t_max", path, dim_key="capacitor.t_max")
     life = None
     if "life" in tab:
         lpath = _join(path, "life")
-        lt = rd.table(tab["life"], lpath, allowed=("rated", "at", "required"),
-                      required=("rated", "at"))
+        lt = rd.table(
+            tab["life"], lpath, allowed=("rated", "at", "required"), required=("rated", "at")
+        )
         if lt is not None and "rated" in lt and "at" in lt:
             rated = rd.quantity(lt["rated"], _join(lpath, "rated"), dim_key="capacitor.life.rated")
             at = rd.quantity(lt["at"], _join(lpath, "at"), dim_key="capacitor.life.at")
             req = rd.optional(lt, "required", lpath, dim_key="capacitor.life.required")
             if rated is not None and at is not None:
                 life = Life(rated=rated, at=at, required=req)
-    thermal = _thermal(rd, tab["thermal"], _join(path, "thermal"), semiconductor=False) \
-        if "thermal" in tab else None
+    thermal = (
+        _thermal(rd, tab["thermal"], _join(path, "thermal"), semiconductor=False)
+        if "thermal" in tab
+        else None
+    )
     if name is not None and name in RESERVED_NAMES:
         rd.problem(_join(path, "name"), f"{name!r} is reserved; choose another name")
         name = None
     if any(x is None for x in (name, pos, count, c, esr, v_rated, t_max, thermal)):
         return None
-    return Capacitor(name=name, position=pos, c=c, c_bias=c_bias, esr=esr, esr_at_f=esr_f,
-                     count=count, v_rated=v_rated, i_ripple_rated=ripple, t_max=t_max, life=life,
-                     thermal=thermal)
+    return Capacitor(
+        name=name,
+        position=pos,
+        c=c,
+        c_bias=c_bias,
+        esr=esr,
+        esr_at_f=esr_f,
+        count=count,
+        v_rated=v_rated,
+        i_ripple_rated=ripple,
+        t_max=t_max,
+        life=life,
+        thermal=thermal,
+    )
 
 
 def _resistor(rd: _Reader, raw: Any, path: str) -> Resistor | None:
-    tab = rd.table(raw, path, allowed=("name", "position", "r", "count"),
-                   required=("name", "position", "r"))
+    tab = rd.table(
+        raw, path, allowed=("name", "position", "r", "count"), required=("name", "position", "r")
+    )
     if tab is None:
         return None
     name = rd.text(tab, "name", path)
@@ -1189,8 +1473,12 @@ def _thermal_block(rd: _Reader, raw: Any) -> tuple[tuple[Sink, ...], tuple[Link,
     return tuple(sinks), tuple(links)
 
 
-def _check_thermal_paths(rd: _Reader, parts: dict[str, PartThermal | None],
-                         sinks: tuple[Sink, ...], links: tuple[Link, ...]) -> None:
+def _check_thermal_paths(
+    rd: _Reader,
+    parts: dict[str, PartThermal | None],
+    sinks: tuple[Sink, ...],
+    links: tuple[Link, ...],
+) -> None:
     names = [s.name for s in sinks]
     if len(set(names)) != len(names):
         rd.problem("thermal.sink", "expected distinct sink names")
@@ -1198,8 +1486,10 @@ def _check_thermal_paths(rd: _Reader, parts: dict[str, PartThermal | None],
     for n, link in enumerate(links):
         for s in link.between:
             if s not in known:
-                rd.problem(f"thermal.link[{n}].between", f"no sink named {s!r} "
-                                                         f"(sinks: {', '.join(sorted(known)) or 'none'})")
+                rd.problem(
+                    f"thermal.link[{n}].between",
+                    f"no sink named {s!r} (sinks: {', '.join(sorted(known)) or 'none'})",
+                )
     # sinks reach ambient directly or through links
     reach = {s.name for s in sinks if s.rth_to_ambient is not None}
     changed = True
@@ -1214,23 +1504,39 @@ def _check_thermal_paths(rd: _Reader, parts: dict[str, PartThermal | None],
         if th is None or th.sink is None:
             continue
         if th.sink not in known:
-            rd.problem(f"{path}.sink", f"no sink named {th.sink!r} "
-                                       f"(sinks: {', '.join(sorted(known)) or 'none'})")
+            rd.problem(
+                f"{path}.sink",
+                f"no sink named {th.sink!r} (sinks: {', '.join(sorted(known)) or 'none'})",
+            )
         elif th.sink not in reach and th.rth_ha is None and th.rth_ja is None:
-            rd.problem(f"{path}.sink", f"sink {th.sink!r} has no path to ambient "
-                                       "(give rth_to_ambient or a link)")
+            rd.problem(
+                f"{path}.sink",
+                f"sink {th.sink!r} has no path to ambient (give rth_to_ambient or a link)",
+            )
     for s in sinks:
         if s.name not in reach:
-            rd.problem("thermal.sink", f"sink {s.name!r} has no path to ambient "
-                                       "(give rth_to_ambient or a link)")
+            rd.problem(
+                "thermal.sink",
+                f"sink {s.name!r} has no path to ambient (give rth_to_ambient or a link)",
+            )
 
 
 # --------------------------------------------------------------------------------------------
 # entry point
 # --------------------------------------------------------------------------------------------
 
-_TOP = ("design", "operating", "switch", "driver", "rectifier", "inductor", "capacitor",
-        "resistor", "thermal", "limits")
+_TOP = (
+    "design",
+    "operating",
+    "switch",
+    "driver",
+    "rectifier",
+    "inductor",
+    "capacitor",
+    "resistor",
+    "thermal",
+    "limits",
+)
 
 
 def load_design(source: str | Path | dict) -> Design:
@@ -1245,7 +1551,8 @@ def load_design(source: str | Path | dict) -> Design:
         name = "<dict>"
         raw = source
         checksum = hashlib.sha256(
-            json.dumps(source, sort_keys=True, default=str).encode()).hexdigest()
+            json.dumps(source, sort_keys=True, default=str).encode()
+        ).hexdigest()
     else:
         path = Path(source)
         name = path.name
@@ -1261,24 +1568,37 @@ def load_design(source: str | Path | dict) -> Design:
             raise DesignError(f"{name}: not valid TOML: {exc}") from None
         checksum = hashlib.sha256(data).hexdigest()
     rd = _Reader(name)
-    top = rd.table(raw, "", allowed=_TOP,
-                   required=("design", "operating", "switch", "driver", "rectifier", "inductor",
-                             "capacitor"))
+    top = rd.table(
+        raw,
+        "",
+        allowed=_TOP,
+        required=("design", "operating", "switch", "driver", "rectifier", "inductor", "capacitor"),
+    )
     if top is None:
         raise DesignError(rd.problems)
-    d = rd.table(top.get("design", {}), "design", allowed=("name", "topology", "rectifier",
-                                                           "light_load"),
-                 required=("name", "topology", "rectifier"))
+    d = rd.table(
+        top.get("design", {}),
+        "design",
+        allowed=("name", "topology", "rectifier", "light_load"),
+        required=("name", "topology", "rectifier"),
+    )
     title = topology = rect = light = None
     if d is not None:
         title = rd.text(d, "name", "design")
         topology = rd.choice(d, "topology", "design", TOPOLOGIES)
         rect = rd.choice(d, "rectifier", "design", RECTIFIER_KINDS)
         if "light_load" in d and rect == "diode":
-            rd.problem("design.light_load", "light_load applies to a synchronous rectifier only "
-                                            "(design.rectifier = \"sync\")")
-        light = rd.choice(d, "light_load", "design", LIGHT_LOADS,
-                          default="forced-continuous" if rect == "sync" else None)
+            rd.problem(
+                "design.light_load",
+                'light_load applies to a synchronous rectifier only (design.rectifier = "sync")',
+            )
+        light = rd.choice(
+            d,
+            "light_load",
+            "design",
+            LIGHT_LOADS,
+            default="forced-continuous" if rect == "sync" else None,
+        )
         if rect == "diode":
             light = "diode-emulation"
     operating = _operating(rd, top["operating"], topology) if "operating" in top else None
@@ -1286,8 +1606,11 @@ def load_design(source: str | Path | dict) -> Design:
     driver = _driver(rd, top["driver"], rect) if "driver" in top else None
     rectifier = None
     if "rectifier" in top and rect is not None:
-        rectifier = (_mosfet(rd, top["rectifier"], "rectifier", sync=True) if rect == "sync"
-                     else _diode(rd, top["rectifier"], "rectifier"))
+        rectifier = (
+            _mosfet(rd, top["rectifier"], "rectifier", sync=True)
+            if rect == "sync"
+            else _diode(rd, top["rectifier"], "rectifier")
+        )
     inductor = _inductor(rd, top["inductor"]) if "inductor" in top else None
     caps: list[Capacitor] = []
     raw_caps = top.get("capacitor", [])
@@ -1299,7 +1622,7 @@ def load_design(source: str | Path | dict) -> Design:
         if cap is not None:
             caps.append(cap)
     if raw_caps and not any(c.position == "output" for c in caps) and len(caps) == len(raw_caps):
-        rd.problem("capacitor", "expected at least one bank at position \"output\"")
+        rd.problem("capacitor", 'expected at least one bank at position "output"')
     res: list[Resistor] = []
     raw_res = top.get("resistor", [])
     if not isinstance(raw_res, list):
@@ -1312,8 +1635,10 @@ def load_design(source: str | Path | dict) -> Design:
     names = [c.name for c in caps] + [r.name for r in res]
     dupes = sorted({n for n in names if names.count(n) > 1})
     if dupes:
-        rd.problem("capacitor", f"expected distinct capacitor and resistor names; repeated: "
-                                f"{', '.join(dupes)}")
+        rd.problem(
+            "capacitor",
+            f"expected distinct capacitor and resistor names; repeated: {', '.join(dupes)}",
+        )
     sinks, links = _thermal_block(rd, top["thermal"]) if "thermal" in top else ((), ())
     parts = {
         "switch.thermal": switch.thermal if switch else None,
@@ -1327,12 +1652,27 @@ def load_design(source: str | Path | dict) -> Design:
         pass
     if rd.problems:
         raise DesignError(rd.problems)
-    return Design(name=title, topology=topology, rectifier_kind=rect, light_load=light,
-                  operating=operating, switch=switch, driver=driver, rectifier=rectifier,
-                  inductor=inductor, capacitors=tuple(caps), resistors=tuple(res),
-                  sinks=sinks, links=links, limits=limits, source=name, checksum=checksum,
-                  resolved=tuple(rd.resolved), warnings=tuple(rd.warnings),
-                  defaults=tuple(rd.defaults))
+    return Design(
+        name=title,
+        topology=topology,
+        rectifier_kind=rect,
+        light_load=light,
+        operating=operating,
+        switch=switch,
+        driver=driver,
+        rectifier=rectifier,
+        inductor=inductor,
+        capacitors=tuple(caps),
+        resistors=tuple(res),
+        sinks=sinks,
+        links=links,
+        limits=limits,
+        source=name,
+        checksum=checksum,
+        resolved=tuple(rd.resolved),
+        warnings=tuple(rd.warnings),
+        defaults=tuple(rd.defaults),
+    )
 
 
 def _limits(rd: _Reader, raw: Any) -> Limits:
@@ -1341,8 +1681,9 @@ def _limits(rd: _Reader, raw: Any) -> Limits:
         return Limits()
     derating = "moderate"
     if "derating" in tab:
-        derating = rd.choice(tab, "derating", "limits", DERATING_PROFILES + ("custom",)) or \
-            "moderate"
+        derating = (
+            rd.choice(tab, "derating", "limits", DERATING_PROFILES + ("custom",)) or "moderate"
+        )
     else:
         rd.default("limits.derating", "moderate")
     margins: list[tuple[str, str, float]] = []
@@ -1357,12 +1698,21 @@ def _limits(rd: _Reader, raw: Any) -> Limits:
                     continue
                 for qty, val in rows.items():
                     if isinstance(val, bool) or not isinstance(val, int | float | str):
-                        rd.problem(f"limits.margins.{kind}.{qty}", f"expected a number, got {_show(val)}")
+                        rd.problem(
+                            f"limits.margins.{kind}.{qty}", f"expected a number, got {_show(val)}"
+                        )
                         continue
                     try:
                         dim = "temperature_difference" if qty.startswith("t") else "fraction"
-                        margins.append((kind, qty, parse_quantity(
-                            val, dim, where=f"{rd.source}: limits.margins.{kind}.{qty}")))
+                        margins.append(
+                            (
+                                kind,
+                                qty,
+                                parse_quantity(
+                                    val, dim, where=f"{rd.source}: limits.margins.{kind}.{qty}"
+                                ),
+                            )
+                        )
                     except DesignError as exc:
                         rd.problems.extend(exc.problems)
             if "derating" not in tab:

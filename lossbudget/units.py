@@ -125,7 +125,9 @@ DIMENSIONS: dict[str, Dimension] = {
             suffix="m",
             units=(Unit(symbol="m", centi=True),),
         ),
-        Dimension(name="area", si="m2", suffix="m2", units=(Unit(symbol="m2", power=2, centi=True),)),
+        Dimension(
+            name="area", si="m2", suffix="m2", units=(Unit(symbol="m2", power=2, centi=True),)
+        ),
         Dimension(
             name="volume", si="m3", suffix="m3", units=(Unit(symbol="m3", power=3, centi=True),)
         ),
@@ -215,8 +217,16 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
     return number
 
 
-_DISPLAY_PREFIXES = [("G", 1e9), ("M", 1e6), ("k", 1e3), ("", 1.0), ("m", 1e-3), ("u", 1e-6),
-                     ("n", 1e-9), ("p", 1e-12)]
+_DISPLAY_PREFIXES = [
+    ("G", 1e9),
+    ("M", 1e6),
+    ("k", 1e3),
+    ("", 1.0),
+    ("m", 1e-3),
+    ("u", 1e-6),
+    ("n", 1e-9),
+    ("p", 1e-12),
+]
 
 
 def format_quantity(value: float, dimension: str, *, digits: int = 4) -> str:
