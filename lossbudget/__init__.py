@@ -1,0 +1,36 @@
+"""lossbudget: efficiency and thermal loss budgets for switched-mode DC-DC converters.
+
+Public API: :func:`load_design`, :func:`solve`, :func:`sweep`, :func:`check_limits`,
+:func:`write_workbook`, :class:`DesignError`. ``import lossbudget`` stays light: numpy only;
+scipy, pandas, matplotlib and openpyxl load when a function needs them.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from lossbudget.design import Design, load_design
+from lossbudget.errors import DesignError
+
+__version__ = "0.1.0"
+
+_LAZY = {
+    "solve": ("lossbudget.solver", "solve"),
+    "Budget": ("lossbudget.solver", "Budget"),
+    "sweep": ("lossbudget.sweep", "sweep"),
+    "check_limits": ("lossbudget.limits", "check_limits"),
+    "LimitReport": ("lossbudget.limits", "LimitReport"),
+    "write_workbook": ("lossbudget.output.workbook", "write_workbook"),
+}
+
+
+def __getattr__(name: str) -> Any:
+    if name in _LAZY:
+        import importlib
+
+        module, attr = _LAZY[name]
+        return getattr(importlib.import_module(module), attr)
+    raise AttributeError(f"module 'lossbudget' has no attribute {name!r}")
+
+
+__all__ = ["Design", "DesignError", "__version__", "load_design", *_LAZY]

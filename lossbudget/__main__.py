@@ -1,0 +1,5 @@
+"""``python -m lossbudget``: the command line."""
+
+from lossbudget.cli import main
+
+main()
