@@ -204,6 +204,17 @@ class SampledWaveform(NamedTuple):
     """Waveforms of one period sampled on a uniform time grid.
 
     A named tuple, so that ``t, i_l, v_c, v_out = waveform(sol, n)`` also works.
+
+    Attributes
+    ----------
+    t : ndarray
+        Sample times from the start of the period (main switch turning on). [s]
+    i_l : ndarray
+        Inductor current. [A]
+    v_c : ndarray
+        Voltage of the ideal output capacitance (magnitude for the inverting stage). [V]
+    v_out : ndarray
+        Voltage across the load (magnitude for the inverting stage). [V]
     """
 
     t: np.ndarray
@@ -669,7 +680,7 @@ def regulate(
     References
     ----------
     .. [1] R. P. Brent, "Algorithms for Minimization without Derivatives", Prentice-Hall,
-       1973, ch. 4 (the root finder, as scipy.optimize.brentq).
+       1973, ch. 4 (the root finder, as scipy.optimize.brentq; chapter from memory).
     """
     ckt = _circuit(
         topology=topology,
@@ -769,11 +780,10 @@ def waveform(
         if idx.size == 0:
             continue
         s = t[idx] - iv.t_start
-        zk = _state_at(iv.m, iv.z0, s[0])
+        z[idx[0]] = _state_at(iv.m, iv.z0, s[0])
         if idx.size > 1:
             step = linalg.expm(iv.m * (s[1] - s[0]))
-        for k in idx:
-            z[k] = zk
-            zk = step @ zk if idx.size > 1 else zk
+            for k in idx[1:]:
+                z[k] = step @ z[k - 1]
         v_out[idx] = z[idx] @ iv.w_vout
     return SampledWaveform(t=t, i_l=z[:, 0].copy(), v_c=z[:, 1].copy(), v_out=v_out)
