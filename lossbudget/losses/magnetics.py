@@ -210,10 +210,10 @@ def _dowell_excess(delta: np.ndarray, layers: np.ndarray) -> np.ndarray:
 
     # delta >= 1: hyperbolic functions divided through by exp(delta) or exp(2 delta).
     de = np.where(np.isfinite(delta), np.maximum(delta, _DOWELL_SPLIT), _DOWELL_SPLIT)
-    with np.errstate(under="ignore"):
+    with np.errstate(under="ignore"):  # exp(-delta) -> 0 is the intended limit
         e1 = np.exp(-de)
-    e2 = e1 * e1
-    e4 = e2 * e2
+        e2 = e1 * e1
+        e4 = e2 * e2
     m_ratio = (1.0 - e4 + 2.0 * e2 * np.sin(2.0 * de)) / (1.0 + e4 - 2.0 * e2 * np.cos(2.0 * de))
     d_ratio = 2.0 * (1.0 - e2 - 2.0 * e1 * np.sin(de)) / (1.0 + e2 + 2.0 * e1 * np.cos(de))
     m_large = de * m_ratio - 1.0

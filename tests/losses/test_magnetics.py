@@ -2,7 +2,9 @@
 
 Every check value comes from outside the module: a published formula written out here, a
 hand calculation, or a second method (scipy quadrature, scipy complex Bessel functions, a
-finite-difference field solution). Sources are those of /work/shared/REFERENCES.md.
+finite-difference field solution). Sources are those of REFERENCES.md (its section numbers
+are quoted as "REFERENCES 3.1"). Inputs are round numbers chosen for hand arithmetic; the check
+values are the formulas or second methods evaluated beside each check.
 """
 
 from __future__ import annotations
