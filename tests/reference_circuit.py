@@ -353,6 +353,40 @@ def _dcm_newton(
     return None
 
 
+def _dcm_bracketed(
+    ckt: _Circuit, m_rect: np.ndarray, e_on: np.ndarray, t_off: float, v_hint: float
+) -> tuple[float, float] | None:
+    """Solve the DCM steady state as a bracketed 1-D root in v_C(0) (slow, robust)."""
+
+    def rect_end(v0: float) -> tuple[float, float]:
+        z1 = e_on @ np.array([0.0, v0, 1.0])
+        if z1[0] <= 0.0:
+            return 0.0, z1[1]
+        t2 = _first_nonpositive(m_rect, z1, t_off)
+        t2 = t_off if t2 is None else t2
+        return t2, _state_at(m_rect, z1, t2)[1]
+
+    def miss(v0: float) -> float:
+        t2, v2 = rect_end(v0)
+        return v2 * np.exp(-(t_off - t2) / ckt.tau_idle) - v0
+
+    if miss(0.0) <= 0.0:
+        return None
+    hi = max(v_hint, ckt.vin)
+    for _ in range(60):
+        if miss(hi) < 0.0:
+            break
+        hi *= 2.0
+    else:
+        return None
+    v0 = optimize.brentq(miss, 0.0, hi, xtol=1e-15 * hi, rtol=4.0 * np.finfo(float).eps)
+    t2 = rect_end(v0)[0]
+    polished = _dcm_newton(ckt, m_rect, e_on, t_off, v0, t2)
+    if polished is not None and abs(polished[1] - t2) <= 1e-6 * t_off:
+        return polished
+    return v0, t2
+
+
 def _steady_state(ckt: _Circuit, duty: float) -> tuple[tuple[Interval, ...], str, float]:
     """Periodic steady state: the chained intervals, the mode and d2."""
     t_s = 1.0 / ckt.fsw
@@ -377,8 +411,9 @@ def _steady_state(ckt: _Circuit, duty: float) -> tuple[tuple[Interval, ...], str
     t_cross = _first_nonpositive(m_rect, z1, t_off) if z1[0] > 0.0 else None
     if t_cross is not None:
         guesses.insert(0, (float(x0[1]), t_cross))
-    for v_guess, t2_guess in guesses:
-        found = _dcm_newton(ckt, m_rect, e_on, t_off, v_guess, t2_guess)
+    candidates = (_dcm_newton(ckt, m_rect, e_on, t_off, *g) for g in guesses)
+    fallback = (_dcm_bracketed(ckt, m_rect, e_on, t_off, max(g[0] for g in guesses)),)
+    for found in (*candidates, *fallback):
         if found is None:
             continue
         v0, t2 = found
@@ -402,7 +437,12 @@ def _steady_state(ckt: _Circuit, duty: float) -> tuple[tuple[Interval, ...], str
             ckt.interval("idle", t1 + t2, t_off - t2, z2),
         )
         return intervals, "DCM", t2 / t_s
-    raise RuntimeError(f"no DCM steady state found at duty {duty:.6g}")
+    f_lc = 1.0 / (2.0 * np.pi * np.sqrt(ckt.l * ckt.c))
+    raise RuntimeError(
+        f"no DCM steady state found at duty {duty:.6g} (LC resonance {f_lc / ckt.fsw:.3g} fsw, "
+        f"R C = {ckt.r_load * ckt.c * ckt.fsw:.3g} T: a ringing or fast-discharging output "
+        "is outside this reference's range)"
+    )
 
 
 def _vout_avg(ckt: _Circuit, intervals: tuple[Interval, ...]) -> float:
