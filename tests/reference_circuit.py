@@ -411,9 +411,13 @@ def _steady_state(ckt: _Circuit, duty: float) -> tuple[tuple[Interval, ...], str
     t_cross = _first_nonpositive(m_rect, z1, t_off) if z1[0] > 0.0 else None
     if t_cross is not None:
         guesses.insert(0, (float(x0[1]), t_cross))
-    candidates = (_dcm_newton(ckt, m_rect, e_on, t_off, *g) for g in guesses)
-    fallback = (_dcm_bracketed(ckt, m_rect, e_on, t_off, max(g[0] for g in guesses)),)
-    for found in (*candidates, *fallback):
+
+    def candidates():  # lazily: the bracketed solve runs only when Newton's method fails
+        for v_guess, t2_guess in guesses:
+            yield _dcm_newton(ckt, m_rect, e_on, t_off, v_guess, t2_guess)
+        yield _dcm_bracketed(ckt, m_rect, e_on, t_off, max(g[0] for g in guesses))
+
+    for found in candidates():
         if found is None:
             continue
         v0, t2 = found

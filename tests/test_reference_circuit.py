@@ -366,3 +366,33 @@ def test_bad_arguments_are_refused():
         solve_periodic(topology="flyback", rectifier="diode", duty=0.5, **lossy())
     with pytest.raises(ValueError, match="r_load"):
         solve_periodic(topology="buck", rectifier="sync", duty=0.5, **lossy(r_load=0.0))
+
+
+@pytest.mark.parametrize(("d", "l"), [(0.001, 1e-6), (0.01, 10e-6)])
+def test_deep_dcm_with_a_diode_drop(d, l):
+    # Hand calculation, the DCM method of Erickson & Maksimovic 2001, ch. 5, lossless but for
+    # the diode threshold: volt-second balance Vin D = (V + vf0) D2, charge balance
+    # V/R = i_pk D2 / 2 with i_pk = Vin D T/L, so V (V + vf0) = Vin^2 D^2 / K and
+    # V = (-vf0 + sqrt(vf0^2 + 4 Vin^2 D^2/K))/2 (inverting buck-boost, magnitude).
+    vf0, r = 0.6, 10.0
+    k = 2.0 * l / (r * T_S)
+    s = solve_periodic(topology="buck-boost", rectifier="diode", duty=d, **near_ideal(l=l, vf0=vf0))
+    v = (-vf0 + np.sqrt(vf0**2 + 4.0 * VIN**2 * d**2 / k)) / 2.0
+    assert s.mode == "DCM"
+    assert_allclose(s.vout_avg, v, rtol=NEAR_IDEAL_RTOL)
+    assert_allclose(s.d2, VIN * d / (v + vf0), rtol=NEAR_IDEAL_RTOL)
+
+
+def test_tiny_duty_with_a_large_diode_drop_is_solved():
+    # A circuit whose DCM state lies outside the basin of Newton's first guesses (the
+    # solver falls back to a bracketed root): the result must still conserve energy
+    # (conservation of energy) and be periodic (definition of the steady state).
+    kw = lossy(vin=5.8, fsw=275e3, l=2.7e-6, dcr=0.024, c=5.8e-6, esr=0.039, r_load=2.4)
+    kw.update(r_switch=0.015, vf0=0.62, rd=0.06)
+    s = solve_periodic(topology="buck-boost", rectifier="diode", duty=0.001, **kw)
+    assert s.mode == "DCM"
+    assert 0.0 < s.d2 < 0.999
+    assert abs(energy_residual(s)) <= 1e-9 * s.pin
+    w = waveform(s, 16, endpoint=True)
+    assert abs(w.i_l[-1] - w.i_l[0]) <= 1e-9 * s.i_l_pk
+    assert abs(w.v_c[-1] - w.v_c[0]) <= 1e-9 * w.v_c[0]
