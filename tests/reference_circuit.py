@@ -10,12 +10,13 @@ series ``esr`` and a resistive load ``r_load`` across the capacitor branch. Swit
 instantaneous, with no dead time, so only waveforms and conduction losses are checked.
 
 In each sub-interval of the period the circuit is linear in the state ``x = (i_L, v_C)``;
-with the augmented state ``z = (i_L, v_C, 1)`` it obeys ``z' = M z`` and is solved exactly by
-the matrix exponential. The periodic steady state is a linear solve in CCM and a 2-D Newton
-iteration on ``(v_C(0), t2)`` in DCM; averages, RMS values and conduction losses are
-integrated in closed form (Van Loan's block exponential), so they carry only rounding error
-(about 1e-12 relative). The inverting buck-boost is solved in magnitudes: its ``v_out``,
-``v_C`` and output current are the magnitudes of the negative quantities.
+with the augmented state ``z = (i_L, v_C, 1)`` it obeys ``z' = M z`` and is solved exactly
+by the matrix exponential. The periodic steady state is a linear solve in CCM and a 2-D
+Newton iteration on ``(v_C(0), t2)`` in DCM (a bracketed 1-D root in ``v_C(0)`` when it
+fails); averages, RMS values and conduction losses are integrated in closed form (Van Loan's
+block exponential), so they carry only rounding error (about 1e-12 relative). The inverting
+buck-boost is solved in magnitudes: its ``v_out``, ``v_C`` and output current are the
+magnitudes of the negative quantities.
 """
 
 from __future__ import annotations
@@ -643,7 +644,8 @@ def solve_periodic(
     sees the output and feeds the output node. Each interval is solved by ``expm(M t)``.
     CCM: ``x(T) = x(0)`` is a linear solve. DCM (the inductor current reaches zero with the
     diode or the emulated sync): Newton's method on ``i_L(t1 + t2) = 0``,
-    ``v_C(T) = v_C(0)``, checked for an earlier zero crossing by sampling the exact
+    ``v_C(T) = v_C(0)`` (falling back to Brent's method on ``v_C(0)`` with the exact
+    zero-current event), checked for an earlier zero crossing by sampling the exact
     solution. Averages and RMS values are ``w . (integral of z)`` and ``w^T (integral of
     z z^T) w``, integrals in closed form, exact to rounding (about 1e-12 relative). Extrema
     come from 256 exact samples per interval refined by a bounded scalar search.
