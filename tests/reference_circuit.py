@@ -63,10 +63,10 @@ class Interval:
     kind: str
     t_start: float
     duration: float
-    m: np.ndarray = field(repr=False)
-    z0: np.ndarray
+    m: np.ndarray = field(repr=False, compare=False)
+    z0: np.ndarray = field(compare=False)
     g: float
-    w_vout: np.ndarray = field(repr=False)
+    w_vout: np.ndarray = field(repr=False, compare=False)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -198,7 +198,7 @@ class CircuitSolution:
     i_rect_avg: float
     i_rect_rms: float
     i_cap_rms: float
-    intervals: tuple[Interval, ...] = field(repr=False)
+    intervals: tuple[Interval, ...] = field(repr=False, compare=False)
 
 
 class SampledWaveform(NamedTuple):
