@@ -123,6 +123,8 @@ def steady_state(
     gap = gap_fraction(q_gap, i_pk, np.where(dcm, 0.0, iv_c), d2)
     below = vc <= vin
     no_root = ~dcm & ((disc < 0) | ~(x > 0) | ~(x <= 1.0))
+    no_load = bool(dcm_allowed) & ~(i_out > 0)
+    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < 0)
     lim, lim_reason = limit_checks(
         duty, fsw, max_duty=max_duty, min_on_time=min_on_time, min_off_time=min_off_time
     )
@@ -137,10 +139,12 @@ def steady_state(
         output_is_inductor=False,
         p_edge_input=np.zeros_like(vin),
         vin=vin,
-        flags=[below, no_root, lim],
+        flags=[no_load, below, no_root, no_mode, lim],
         reasons=[
+            "no load: pulse skipping at zero load is not modelled",
             "boost cannot regulate an output at or below its input",
             "the conduction drops cannot deliver this load: no duty cycle reaches the output",
+            "no consistent CCM or DCM solution with these drops",
             lim_reason,
         ],
         blocks={"switch": vc + vf0, "rect": vc, "switch_settled": vin, "rect_idle": vc - vin},

@@ -112,6 +112,8 @@ def steady_state(
     i_valley = np.where(dcm, 0.0, i_l - 0.5 * di_c)
     below = vc >= vin
     no_root = ~dcm & (~(den > 0) | ~(duty_c < 1.0) | ~(duty_c > 0))
+    no_load = bool(dcm_allowed) & ~(i_out > 0)
+    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < 0)
     lim, lim_reason = limit_checks(
         duty, fsw, max_duty=max_duty, min_on_time=min_on_time, min_off_time=min_off_time
     )
@@ -126,10 +128,12 @@ def steady_state(
         output_is_inductor=True,
         p_edge_input=p_edge,
         vin=vin,
-        flags=[below, no_root, lim],
+        flags=[no_load, below, no_root, no_mode, lim],
         reasons=[
+            "no load: pulse skipping at zero load is not modelled",
             "buck cannot reach an output at or above its input",
             "the conduction drops cannot deliver this load: no duty cycle reaches the output",
+            "no consistent CCM or DCM solution with these drops",
             lim_reason,
         ],
         blocks={"switch": vin + vf0, "rect": vin, "switch_settled": vin - vc, "rect_idle": vc},

@@ -111,6 +111,8 @@ def steady_state(
     i_pk = np.where(dcm, ipk_d, i_l + 0.5 * di_c)
     i_valley = np.where(dcm, 0.0, i_l - 0.5 * di_c)
     no_root = ~dcm & ((disc < 0) | ~(x > 0) | ~(x <= 1.0))
+    no_load = bool(dcm_allowed) & ~(i_out > 0)
+    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < 0)
     lim, lim_reason = limit_checks(
         duty, fsw, max_duty=max_duty, min_on_time=min_on_time, min_off_time=min_off_time
     )
@@ -125,9 +127,11 @@ def steady_state(
         output_is_inductor=False,
         p_edge_input=p_edge,
         vin=vin,
-        flags=[no_root, lim],
+        flags=[no_load, no_root, no_mode, lim],
         reasons=[
+            "no load: pulse skipping at zero load is not modelled",
             "the conduction drops cannot deliver this load: no duty cycle reaches the output",
+            "no consistent CCM or DCM solution with these drops",
             lim_reason,
         ],
         blocks={"switch": vin + vc + vf0, "rect": vin + vc, "switch_settled": vin, "rect_idle": vc},
