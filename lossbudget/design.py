@@ -286,6 +286,7 @@ class Resistor:
     position: Position
     r: Value
     count: int = 1
+    r_at: float = T_REF_DEFAULT
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -375,10 +376,16 @@ class _Reader:
         self.warnings: list[str] = []
 
     def problem(self, path: str, message: str) -> None:
-        self.problems.append(f"{self.source}: {path}: {message}")
+        self.problems.append(f"{self.source}: {path or '(top level)'}: {message}")
 
     def warn(self, path: str, message: str) -> None:
         self.warnings.append(f"{self.source}: {path}: {message}")
+
+    def unknown(self, path: str, key: Any, allowed: tuple[str, ...]) -> None:
+        """Report an unknown key with the nearest valid one."""
+        near = difflib.get_close_matches(str(key), allowed, n=1, cutoff=0.5)
+        hint = f" (did you mean {near[0]!r}?)" if near else ""
+        self.problem(_join(path, key), f"unknown key{hint}; valid keys: {', '.join(allowed)}")
 
     def default(self, path: str, text: str) -> None:
         self.defaults.append((path, text))
@@ -386,7 +393,7 @@ class _Reader:
     def table(
         self, raw: Any, path: str, *, allowed: tuple[str, ...], required: tuple[str, ...] = ()
     ) -> dict | None:
-        """Check a table's type, its unknown keys (with the nearest valid key), its required keys."""
+        """Check a table's type, its unknown keys (nearest valid key named), its required keys."""
         if raw is _MISSING:
             self.problem(path, "missing required table")
             return None
@@ -395,11 +402,7 @@ class _Reader:
             return None
         for key in raw:
             if key not in allowed:
-                near = difflib.get_close_matches(str(key), allowed, n=1, cutoff=0.5)
-                hint = f" (did you mean {near[0]!r}?)" if near else ""
-                self.problem(
-                    _join(path, key), f"unknown key{hint}; valid keys: {', '.join(allowed)}"
-                )
+                self.unknown(path, key, allowed)
         for key in required:
             if key not in raw:
                 self.problem(_join(path, key), "missing required key")
@@ -465,7 +468,7 @@ class _Reader:
         if key not in table:
             return None
         raw = table[key]
-        if isinstance(raw, bool) or not isinstance(raw, int | float) or not math.isfinite(raw):
+        if isinstance(raw, bool) or not isinstance(raw, int | float) or not _finite(raw):
             self.problem(_join(path, key), f"expected a finite number, got {_show(raw)}")
             return None
         if positive and raw <= 0:
@@ -513,41 +516,78 @@ class _Reader:
         nonnegative: bool = False,
     ) -> Value | None:
         """A plain value or ``{ typ, max }`` (``min`` where lower is worse)."""
-        if isinstance(raw, dict):
-            other = "min" if worse == "max" else "max"
-            tab = self.table(raw, path, allowed=("typ", worse), required=("typ",))
-            if other in raw:
-                self.problems.pop()  # replace the generic unknown-key line
+        if not isinstance(raw, dict):
+            x = self.quantity(
+                raw, path, dim_key=dim_key, positive=positive, nonnegative=nonnegative
+            )
+            return None if x is None else Value(typ=x, worst=x)
+        if not self.corner_keys(raw, path, allowed=("typ",), worse=worse):
+            return None
+        if "typ" not in raw:
+            self.problem(_join(path, "typ"), "missing required key")
+            return None
+        return self.corner(
+            raw,
+            path,
+            "typ",
+            dim_key=dim_key,
+            worse=worse,
+            positive=positive,
+            nonnegative=nonnegative,
+        )
+
+    def corner_keys(self, raw: dict, path: str, *, allowed: tuple[str, ...], worse: str) -> bool:
+        """Check the keys of a table holding a corner value; False on any unknown key."""
+        other = "min" if worse == "max" else "max"
+        ok = True
+        for key in raw:
+            if key == other:
+                lower_higher = "higher" if worse == "max" else "lower"
                 self.problem(
                     _join(path, other),
-                    f"expected {worse!r} for this parameter ({'higher' if worse == 'max' else 'lower'} is worse)",
+                    f"expected {worse!r} for this parameter "
+                    f"({lower_higher} is worse), got {other!r}",
                 )
-            if tab is None or "typ" not in tab:
-                return None
-            typ = self.quantity(
-                tab["typ"],
-                _join(path, "typ"),
-                dim_key=dim_key,
-                positive=positive,
-                nonnegative=nonnegative,
+                ok = False
+            elif key not in (*allowed, worse):
+                self.unknown(path, key, (*allowed, worse))
+                ok = False
+        return ok
+
+    def corner(
+        self,
+        tab: dict,
+        path: str,
+        key: str,
+        *,
+        dim_key: str,
+        worse: str,
+        positive: bool = True,
+        nonnegative: bool = False,
+    ) -> Value | None:
+        """The typical value under ``key`` and the worst-case one under ``worse``."""
+        typ = self.quantity(
+            tab[key],
+            _join(path, key),
+            dim_key=dim_key,
+            positive=positive,
+            nonnegative=nonnegative,
+        )
+        bad = self.optional(
+            tab, worse, path, dim_key=dim_key, positive=positive, nonnegative=nonnegative
+        )
+        if typ is None or (worse in tab and bad is None):
+            return None
+        if bad is None:
+            return Value(typ=typ, worst=typ)
+        if (worse == "max" and bad < typ) or (worse == "min" and bad > typ):
+            self.problem(
+                _join(path, worse),
+                f"expected {worse} {'>=' if worse == 'max' else '<='} {key} "
+                f"({_show(tab[key])}), got {_show(tab[worse])}",
             )
-            bad = self.optional(
-                tab, worse, path, dim_key=dim_key, positive=positive, nonnegative=nonnegative
-            )
-            if typ is None:
-                return None
-            if bad is None:
-                return Value(typ=typ, worst=typ)
-            if (worse == "max" and bad < typ) or (worse == "min" and bad > typ):
-                self.problem(
-                    _join(path, worse),
-                    f"expected {worse} {'>=' if worse == 'max' else '<='} typ "
-                    f"({_show(tab['typ'])}), got {_show(tab[worse])}",
-                )
-                return None
-            return Value(typ=typ, worst=bad)
-        x = self.quantity(raw, path, dim_key=dim_key, positive=positive, nonnegative=nonnegative)
-        return None if x is None else Value(typ=x, worst=x)
+            return None
+        return Value(typ=typ, worst=bad)
 
     def curve(
         self,
@@ -595,9 +635,12 @@ class _Reader:
         ok = True
         for n, point in enumerate(points_raw):
             ppath = f"{path}[{n}]" if isinstance(raw, list) else path
-            allowed = ("typ", letter, worse, "at", *extra)
-            tab = self.table(point, ppath, allowed=allowed)
-            if tab is None:
+            if not isinstance(point, dict):
+                self.problem(ppath, f"expected a table, got {_show(point)}")
+                ok = False
+                continue
+            tab = point
+            if not self.corner_keys(tab, ppath, allowed=("typ", letter, "at", *extra), worse=worse):
                 ok = False
                 continue
             keys = [k for k in ("typ", letter) if k in tab]
@@ -605,9 +648,10 @@ class _Reader:
                 self.problem(ppath, f"expected the value as '{letter}' (or 'typ'), once")
                 ok = False
                 continue
-            v = self.value(
-                {"typ": tab[keys[0]], **({worse: tab[worse]} if worse in tab else {})},
-                _join(ppath, keys[0]),
+            v = self.corner(
+                tab,
+                ppath,
+                keys[0],
                 dim_key=value_key,
                 worse=worse,
                 positive=positive,
@@ -643,6 +687,14 @@ class _Reader:
         ratio = ratios[0] if ratios else 1.0
         worst = tuple(p[2] if p[2] is not None else p[1] * ratio for p in pts)
         return Curve(t=tuple(p[0] for p in pts), typ=tuple(p[1] for p in pts), worst=worst), extras
+
+
+def _finite(x: float) -> bool:
+    """math.isfinite that also takes an integer beyond the float range (as not finite)."""
+    try:
+        return math.isfinite(x)
+    except OverflowError:
+        return False
 
 
 def _join(path: str, key: Any) -> str:
@@ -712,12 +764,30 @@ def _gkey(path: str, key: str) -> str:
     return f"{head}.{key}"
 
 
-def _recovery(rd: _Reader, raw: Any, path: str) -> Recovery | None:
-    tab = rd.table(raw, path, allowed=("q", "at_i", "at"), required=("q", "at_i"))
-    if tab is None or "q" not in tab or "at_i" not in tab:
+def _recovery(rd: _Reader, raw: Any, path: str, *, iout: float | None) -> Recovery | None:
+    """``{ q, at_i, at }``, or a plain charge (SPEC §5: ``qrr = "40 nC"``).
+
+    Without ``at_i`` the charge is taken as measured at the rated output current, and the
+    default says so.
+    """
+    if not isinstance(raw, dict):
+        raw = {"q": raw}
+        qpath = path
+    else:
+        qpath = _join(path, "q")
+    tab = rd.table(raw, path, allowed=("q", "at_i", "at"), required=("q",))
+    if tab is None or "q" not in tab:
         return None
-    q = rd.value(tab["q"], _join(path, "q"), dim_key=_gkey(path, "q"))
-    at_i = rd.quantity(tab["at_i"], _join(path, "at_i"), dim_key=_gkey(path, "at_i"))
+    q = rd.value(tab["q"], qpath, dim_key=_gkey(path, "q"))
+    if "at_i" in tab:
+        at_i = rd.quantity(tab["at_i"], _join(path, "at_i"), dim_key=_gkey(path, "at_i"))
+    else:
+        at_i = iout
+        if iout is not None:
+            rd.default(
+                _join(path, "at_i"),
+                f"not given: taken at operating.iout_rated ({format_quantity(iout, 'current')})",
+            )
     if "at" in tab:
         at = rd.quantity(tab["at"], _join(path, "at"), dim_key=_gkey(path, "at"))
     else:
@@ -785,7 +855,9 @@ _MOSFET_REQUIRED = (
 )
 
 
-def _mosfet(rd: _Reader, raw: Any, path: str, *, sync: bool) -> Mosfet | None:
+def _mosfet(
+    rd: _Reader, raw: Any, path: str, *, sync: bool, iout: float | None = None
+) -> Mosfet | None:
     tab = rd.table(raw, path, allowed=_MOSFET_ALLOWED, required=_MOSFET_REQUIRED)
     if tab is None:
         return None
@@ -812,6 +884,8 @@ def _mosfet(rd: _Reader, raw: Any, path: str, *, sync: bool) -> Mosfet | None:
         rd.problem(_join(path, "v_plateau"), "expected v_plateau above v_th")
     if q["qg"] and q["qgs"] and q["qgd"] and q["qg"].typ < q["qgs"].typ + q["qgd"].typ:
         rd.problem(_join(path, "qg"), "expected qg >= qgs + qgd")
+    if q["qgs2"] and q["qgs"] and q["qgs2"].typ > q["qgs"].typ:
+        rd.problem(_join(path, "qgs2"), "expected qgs2 <= qgs (qgs2 is the part above v_th)")
     qoss = _at_voltage(rd, tab["qoss"], _join(path, "qoss"), "q") if "qoss" in tab else None
     eoss = _at_voltage(rd, tab["eoss"], _join(path, "eoss"), "e") if "eoss" in tab else None
     eon = _ref_energy(rd, tab["eon"], _join(path, "eon")) if "eon" in tab else None
@@ -822,7 +896,11 @@ def _mosfet(rd: _Reader, raw: Any, path: str, *, sync: bool) -> Mosfet | None:
         btab = rd.table(tab["body_diode"], bpath, allowed=("vsd", "qrr", "erec"), required=("vsd",))
         if btab is not None and "vsd" in btab:
             got = rd.curve(btab["vsd"], _join(bpath, "vsd"), letter="v")
-            qrr = _recovery(rd, btab["qrr"], _join(bpath, "qrr")) if "qrr" in btab else None
+            qrr = (
+                _recovery(rd, btab["qrr"], _join(bpath, "qrr"), iout=iout)
+                if "qrr" in btab
+                else None
+            )
             erec = (
                 rd.value(btab["erec"], _join(bpath, "erec"), dim_key="switch.body_diode.erec")
                 if "erec" in btab
@@ -876,7 +954,7 @@ _DIODE_ALLOWED = (
 )
 
 
-def _diode(rd: _Reader, raw: Any, path: str) -> Diode | None:
+def _diode(rd: _Reader, raw: Any, path: str, *, iout: float | None = None) -> Diode | None:
     tab = rd.table(
         raw, path, allowed=_DIODE_ALLOWED, required=("vr_rated", "vf0", "rd", "tj_max", "thermal")
     )
@@ -895,7 +973,7 @@ def _diode(rd: _Reader, raw: Any, path: str) -> Diode | None:
         else None
     )
     qc = _at_voltage(rd, tab["qc"], _join(path, "qc"), "q") if "qc" in tab else None
-    qrr = _recovery(rd, tab["qrr"], _join(path, "qrr")) if "qrr" in tab else None
+    qrr = _recovery(rd, tab["qrr"], _join(path, "qrr"), iout=iout) if "qrr" in tab else None
     erec = (
         rd.value(tab["erec"], _join(path, "erec"), dim_key="rectifier.erec")
         if "erec" in tab
@@ -1133,19 +1211,8 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
     dcr = None
     dcr_at = T_REF_DEFAULT
     if "dcr" in tab:
-        raw_dcr = tab["dcr"]
-        if isinstance(raw_dcr, dict) and "r" in raw_dcr:
-            dtab = rd.table(raw_dcr, "inductor.dcr", allowed=("r", "max", "at"), required=("r",))
-            if dtab is not None:
-                sub = {"typ": dtab["r"], **({"max": dtab["max"]} if "max" in dtab else {})}
-                dcr = rd.value(sub, "inductor.dcr.r", dim_key="inductor.dcr.r")
-                if "at" in dtab:
-                    dcr_at = rd.quantity(dtab["at"], "inductor.dcr.at")
-                else:
-                    rd.default("inductor.dcr.at", "25 degC")
-        else:
-            dcr = rd.value(raw_dcr, "inductor.dcr", dim_key="inductor.dcr.r")
-            rd.default("inductor.dcr.at", "25 degC")
+        got = _resistance_at(rd, tab["dcr"], "inductor.dcr", dim_key="inductor.dcr.r")
+        dcr, dcr_at = got if got is not None else (None, None)
     i_sat = None
     if "i_sat" in tab:
         got = rd.curve(tab["i_sat"], "inductor.i_sat", letter="i", worse="min")
@@ -1175,6 +1242,27 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
         winding=winding,
         thermal=thermal,
     )
+
+
+def _resistance_at(rd: _Reader, raw: Any, path: str, *, dim_key: str) -> tuple[Value, float] | None:
+    """A plain resistance at 25 degC, or ``{ r, max, at }`` (``typ`` for ``r`` too)."""
+    if not isinstance(raw, dict):
+        v = rd.value(raw, path, dim_key=dim_key)
+        rd.default(_join(path, "at"), "25 degC")
+        return None if v is None else (v, T_REF_DEFAULT)
+    if not rd.corner_keys(raw, path, allowed=("r", "typ", "at"), worse="max"):
+        return None
+    keys = [k for k in ("r", "typ") if k in raw]
+    if len(keys) != 1:
+        rd.problem(path, "expected the value as 'r' (or 'typ'), once")
+        return None
+    v = rd.corner(raw, path, keys[0], dim_key=dim_key, worse="max")
+    if "at" in raw:
+        at = rd.quantity(raw["at"], _join(path, "at"), dim_key="inductor.dcr.at")
+    else:
+        at = T_REF_DEFAULT
+        rd.default(_join(path, "at"), "25 degC")
+    return None if v is None or at is None else (v, at)
 
 
 def _core(rd: _Reader, raw: Any) -> Core | None:
@@ -1209,9 +1297,11 @@ def _core(rd: _Reader, raw: Any) -> Core | None:
             not isinstance(c, list)
             or len(c) != 3
             or any(isinstance(x, bool) or not isinstance(x, int | float) for x in c)
+            or not all(_finite(x) for x in c)
         ):
             rd.problem(
-                "inductor.core.ct", f"expected three numbers [ct0, ct1, ct2], got {_show(c)}"
+                "inductor.core.ct",
+                f"expected three finite numbers [ct0, ct1, ct2], got {_show(c)}",
             )
         else:
             ct = (float(c[0]), float(c[1]), float(c[2]))
@@ -1246,12 +1336,12 @@ def _pair(rd: _Reader, tab: dict, key: str, path: str) -> tuple[float, float] | 
     if not isinstance(raw, list) or len(raw) != 2:
         rd.problem(p, f"expected [low, high], got {_show(raw)}")
         return None
-    lo = rd.quantity(raw[0], p, record=False)
-    hi = rd.quantity(raw[1], p, record=False)
+    lo = rd.quantity(raw[0], f"{p}[0]", dim_key=p)
+    hi = rd.quantity(raw[1], f"{p}[1]", dim_key=p)
     if lo is None or hi is None:
         return None
     if lo >= hi:
-        rd.problem(p, "expected low < high")
+        rd.problem(p, f"expected low < high, got {_show(raw[0])} and {_show(raw[1])}")
         return None
     return lo, hi
 
@@ -1292,8 +1382,6 @@ def _winding(rd: _Reader, raw: Any) -> Winding | None:
             "expected either rac_rdc or the geometry (layers, wire_diameter, porosity), not both",
         )
         return None
-    if "rac_rdc" in tab and "layers" not in tab:
-        pass
     return Winding(layers=layers, wire_diameter=d, porosity=por, rac_rdc=rac, litz=litz)
 
 
@@ -1350,6 +1438,8 @@ def _capacitor(rd: _Reader, raw: Any, path: str) -> Capacitor | None:
                 if cv is not None and vv is not None:
                     pts.append((vv, cv))
             c_bias = tuple(sorted(pts))
+            if len({v for v, _ in pts}) != len(pts):
+                rd.problem(_join(path, "c_bias"), "expected points at distinct voltages")
     esr = None
     esr_f = None
     if "esr" in tab:
@@ -1424,13 +1514,17 @@ def _resistor(rd: _Reader, raw: Any, path: str) -> Resistor | None:
     name = rd.text(tab, "name", path)
     pos = rd.choice(tab, "position", path, POSITIONS)
     count = rd.integer(tab, "count", path, default=1)
-    r = rd.value(tab["r"], _join(path, "r"), dim_key="resistor.r[].r") if "r" in tab else None
+    got = (
+        _resistance_at(rd, tab["r"], _join(path, "r"), dim_key="resistor.r[].r")
+        if "r" in tab
+        else None
+    )
     if name is not None and name in RESERVED_NAMES:
         rd.problem(_join(path, "name"), f"{name!r} is reserved; choose another name")
         name = None
-    if any(x is None for x in (name, pos, count, r)):
+    if got is None or any(x is None for x in (name, pos, count)):
         return None
-    return Resistor(name=name, position=pos, r=r, count=count)
+    return Resistor(name=name, position=pos, r=got[0], r_at=got[1], count=count)
 
 
 def _thermal_block(rd: _Reader, raw: Any) -> tuple[tuple[Sink, ...], tuple[Link, ...]]:
@@ -1466,6 +1560,9 @@ def _thermal_block(rd: _Reader, raw: Any) -> tuple[tuple[Sink, ...], tuple[Link,
         b = lt["between"]
         if not isinstance(b, list) or len(b) != 2 or not all(isinstance(x, str) for x in b):
             rd.problem(_join(p, "between"), f"expected two sink names, got {_show(b)}")
+            continue
+        if b[0] == b[1]:
+            rd.problem(_join(p, "between"), f"expected two different sinks, got {b[0]!r} twice")
             continue
         rth = rd.quantity(lt["rth"], _join(p, "rth"), dim_key="thermal.link.rth")
         if rth is not None:
@@ -1513,10 +1610,10 @@ def _check_thermal_paths(
                 f"{path}.sink",
                 f"sink {th.sink!r} has no path to ambient (give rth_to_ambient or a link)",
             )
-    for s in sinks:
+    for n, s in enumerate(sinks):
         if s.name not in reach:
             rd.problem(
-                "thermal.sink",
+                f"thermal.sink[{n}]",
                 f"sink {s.name!r} has no path to ambient (give rth_to_ambient or a link)",
             )
 
@@ -1550,9 +1647,11 @@ def load_design(source: str | Path | dict) -> Design:
     if isinstance(source, dict):
         name = "<dict>"
         raw = source
-        checksum = hashlib.sha256(
-            json.dumps(source, sort_keys=True, default=str).encode()
-        ).hexdigest()
+        try:
+            text = json.dumps(source, sort_keys=True, default=str)
+        except (TypeError, ValueError):  # keys of mixed types, or a circular structure
+            text = repr(source)
+        checksum = hashlib.sha256(text.encode()).hexdigest()
     else:
         path = Path(source)
         name = path.name
@@ -1576,11 +1675,15 @@ def load_design(source: str | Path | dict) -> Design:
     )
     if top is None:
         raise DesignError(rd.problems)
-    d = rd.table(
-        top.get("design", {}),
-        "design",
-        allowed=("name", "topology", "rectifier", "light_load"),
-        required=("name", "topology", "rectifier"),
+    d = (
+        rd.table(
+            top["design"],
+            "design",
+            allowed=("name", "topology", "rectifier", "light_load"),
+            required=("name", "topology", "rectifier"),
+        )
+        if "design" in top
+        else None
     )
     title = topology = rect = light = None
     if d is not None:
@@ -1602,14 +1705,17 @@ def load_design(source: str | Path | dict) -> Design:
         if rect == "diode":
             light = "diode-emulation"
     operating = _operating(rd, top["operating"], topology) if "operating" in top else None
-    switch = _mosfet(rd, top["switch"], "switch", sync=False) if "switch" in top else None
+    iout = operating.iout_rated if operating is not None else None
+    switch = (
+        _mosfet(rd, top["switch"], "switch", sync=False, iout=iout) if "switch" in top else None
+    )
     driver = _driver(rd, top["driver"], rect) if "driver" in top else None
     rectifier = None
     if "rectifier" in top and rect is not None:
         rectifier = (
-            _mosfet(rd, top["rectifier"], "rectifier", sync=True)
+            _mosfet(rd, top["rectifier"], "rectifier", sync=True, iout=iout)
             if rect == "sync"
-            else _diode(rd, top["rectifier"], "rectifier")
+            else _diode(rd, top["rectifier"], "rectifier", iout=iout)
         )
     inductor = _inductor(rd, top["inductor"]) if "inductor" in top else None
     caps: list[Capacitor] = []
@@ -1621,7 +1727,8 @@ def load_design(source: str | Path | dict) -> Design:
         cap = _capacitor(rd, c, f"capacitor[{n}]")
         if cap is not None:
             caps.append(cap)
-    if raw_caps and not any(c.position == "output" for c in caps) and len(caps) == len(raw_caps):
+    all_read = len(caps) == len(raw_caps)
+    if "capacitor" in top and all_read and not any(c.position == "output" for c in caps):
         rd.problem("capacitor", 'expected at least one bank at position "output"')
     res: list[Resistor] = []
     raw_res = top.get("resistor", [])
@@ -1632,14 +1739,15 @@ def load_design(source: str | Path | dict) -> Design:
         item = _resistor(rd, r, f"resistor[{n}]")
         if item is not None:
             res.append(item)
-    names = [c.name for c in caps] + [r.name for r in res]
+    sinks, links = _thermal_block(rd, top["thermal"]) if "thermal" in top else ((), ())
+    names = [c.name for c in caps] + [r.name for r in res] + [s.name for s in sinks]
     dupes = sorted({n for n in names if names.count(n) > 1})
     if dupes:
         rd.problem(
-            "capacitor",
-            f"expected distinct capacitor and resistor names; repeated: {', '.join(dupes)}",
+            "capacitor" if caps else "thermal.sink",
+            "expected distinct capacitor, resistor and sink names; repeated: " + ", ".join(dupes),
         )
-    sinks, links = _thermal_block(rd, top["thermal"]) if "thermal" in top else ((), ())
+    _check_gate_drive(rd, driver, {"switch": switch, "rectifier": rectifier})
     parts = {
         "switch.thermal": switch.thermal if switch else None,
         "rectifier.thermal": rectifier.thermal if rectifier else None,
@@ -1648,8 +1756,6 @@ def load_design(source: str | Path | dict) -> Design:
     }
     _check_thermal_paths(rd, parts, sinks, links)
     limits = _limits(rd, top.get("limits", {}))
-    if switch is not None and operating is not None and switch.vds_rated is not None:
-        pass
     if rd.problems:
         raise DesignError(rd.problems)
     return Design(
@@ -1675,54 +1781,90 @@ def load_design(source: str | Path | dict) -> Design:
     )
 
 
+def _check_gate_drive(
+    rd: _Reader, driver: Driver | None, fets: dict[str, Mosfet | Diode | None]
+) -> None:
+    """The drive must reach past the Miller plateau; warn below the Rds(on) test voltage."""
+    if driver is None:
+        return
+    for path, fet in fets.items():
+        if not isinstance(fet, Mosfet):
+            continue
+        if driver.v_drive <= fet.v_plateau:
+            rd.problem(
+                "driver.v_drive",
+                f"expected a drive voltage above {path}.v_plateau "
+                f"({format_quantity(fet.v_plateau, 'voltage')}), "
+                f"got {format_quantity(driver.v_drive, 'voltage')}",
+            )
+        elif fet.rds_on_v_gs is not None and driver.v_drive < fet.rds_on_v_gs:
+            rd.warn(
+                "driver.v_drive",
+                f"below the gate voltage of {path}.rds_on "
+                f"({format_quantity(fet.rds_on_v_gs, 'voltage')}): Rds(on) will be higher "
+                "than the datasheet points",
+            )
+
+
 def _limits(rd: _Reader, raw: Any) -> Limits:
     tab = rd.table(raw, "limits", allowed=("derating", "v_spike", "margins"))
     if tab is None:
         return Limits()
-    derating = "moderate"
+    margins = _margins(rd, tab["margins"]) if "margins" in tab else ()
     if "derating" in tab:
-        derating = (
-            rd.choice(tab, "derating", "limits", DERATING_PROFILES + ("custom",)) or "moderate"
-        )
+        derating = rd.choice(tab, "derating", "limits", (*DERATING_PROFILES, "custom"))
+        if derating == "custom" and "margins" not in tab:
+            rd.problem("limits.derating", 'expected [limits.margins] beside derating = "custom"')
+        elif derating in DERATING_PROFILES and "margins" in tab:
+            rd.problem(
+                "limits.margins",
+                f'expected either derating = "{derating}" or [limits.margins], not both',
+            )
+        derating = derating or "moderate"
+    elif "margins" in tab:
+        derating = "custom"
+        rd.default("limits.derating", "custom (from limits.margins)")
     else:
+        derating = "moderate"
         rd.default("limits.derating", "moderate")
-    margins: list[tuple[str, str, float]] = []
-    if "margins" in tab:
-        mt = tab["margins"]
-        if not isinstance(mt, dict):
-            rd.problem("limits.margins", "expected a table of part kinds")
-        else:
-            for kind, rows in mt.items():
-                if not isinstance(rows, dict):
-                    rd.problem(f"limits.margins.{kind}", "expected a table of quantity = margin")
-                    continue
-                for qty, val in rows.items():
-                    if isinstance(val, bool) or not isinstance(val, int | float | str):
-                        rd.problem(
-                            f"limits.margins.{kind}.{qty}", f"expected a number, got {_show(val)}"
-                        )
-                        continue
-                    try:
-                        dim = "temperature_difference" if qty.startswith("t") else "fraction"
-                        margins.append(
-                            (
-                                kind,
-                                qty,
-                                parse_quantity(
-                                    val, dim, where=f"{rd.source}: limits.margins.{kind}.{qty}"
-                                ),
-                            )
-                        )
-                    except DesignError as exc:
-                        rd.problems.extend(exc.problems)
-            if "derating" not in tab:
-                derating = "custom"
     if "v_spike" in tab:
         v_spike = rd.quantity(tab["v_spike"], "limits.v_spike", nonnegative=True) or 0.0
     else:
         v_spike = 0.0
         rd.default("limits.v_spike", "0 V")
-    return Limits(derating=derating, margins=tuple(margins), v_spike=v_spike)
+    return Limits(derating=derating, margins=margins, v_spike=v_spike)
+
+
+def _margins(rd: _Reader, mt: Any) -> tuple[tuple[str, str, float], ...]:
+    """The user's derating table: part kind -> quantity -> margin.
+
+    Temperature margins (quantities starting with "t") are kelvin offsets >= 0; the others
+    are fractions of the absolute limit in [0, 1).
+    """
+    if not isinstance(mt, dict):
+        rd.problem("limits.margins", f"expected a table of part kinds, got {_show(mt)}")
+        return ()
+    margins: list[tuple[str, str, float]] = []
+    for kind, rows in mt.items():
+        if not isinstance(rows, dict):
+            rd.problem(f"limits.margins.{kind}", "expected a table of quantity = margin")
+            continue
+        for qty, val in rows.items():
+            path = f"limits.margins.{kind}.{qty}"
+            dim = "temperature_difference" if str(qty).startswith("t") else "fraction"
+            try:
+                x = parse_quantity(val, dim, where=f"{rd.source}: {path}")
+            except DesignError as exc:
+                rd.problems.extend(exc.problems)
+                continue
+            if dim == "fraction" and not 0 <= x < 1:
+                rd.problem(path, f"expected a fraction in [0, 1), got {_show(val)}")
+            elif x < 0:
+                rd.problem(path, f"expected a margin >= 0 K, got {_show(val)}")
+            else:
+                margins.append((str(kind), str(qty), x))
+                rd.resolved.append((path, format_quantity(x, dim)))
+    return tuple(margins)
 
 
 def glossary_keys() -> list[str]:

@@ -197,7 +197,10 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
     if isinstance(value, int | float):
         if not dim.bare_ok:
             raise DesignError(f"{prefix}expected {expected}, got bare number {value!r}")
-        number = float(value)
+        try:
+            number = float(value)
+        except OverflowError:  # an integer beyond the float range (from a dict source)
+            raise DesignError(f"{prefix}expected a finite {expected}, got {value!r}") from None
     else:
         match = _NUMBER.match(value)
         if match is None:
@@ -229,6 +232,9 @@ _DISPLAY_PREFIXES = [
 ]
 
 
+_DISPLAY_PREFIXES_INSIDE_POWER = [("", 1.0), ("c", 1e-2), ("m", 1e-3), ("u", 1e-6), ("n", 1e-9)]
+
+
 def format_quantity(value: float, dimension: str, *, digits: int = 4) -> str:
     """Format an SI value with an engineering prefix for display ("22 uH", "55 degC")."""
     dim = DIMENSIONS[dimension]
@@ -239,10 +245,16 @@ def format_quantity(value: float, dimension: str, *, digits: int = 4) -> str:
     if dimension in {"number"}:
         return f"{value:.{digits}g}"
     unit = dim.si
-    prefixable = dim.units and dim.units[0].prefixable and dim.units[0].power == 1
-    if not prefixable or value == 0:
+    first = dim.units[0] if dim.units else None
+    if first is None or not first.prefixable or value == 0:
         return f"{value:.{digits}g} {unit}".strip()
     mag = abs(value)
+    if first.power > 1:  # areas and volumes: the prefix binds inside the power ("11.4 cm3")
+        symbol, scale = next(
+            (p for p in _DISPLAY_PREFIXES_INSIDE_POWER if mag >= p[1] ** first.power * 0.9995),
+            _DISPLAY_PREFIXES_INSIDE_POWER[-1],
+        )
+        return f"{value / scale**first.power:.{digits}g} {symbol}{unit}"
     for symbol, scale in _DISPLAY_PREFIXES:
         if mag >= scale * 0.9995:
             return f"{value / scale:.{digits}g} {symbol}{unit}"
@@ -295,7 +307,6 @@ _THERMAL_KEYS = {
     "thermal.rth_ja": "thermal_resistance",
     "thermal.rth_jb": "thermal_resistance",
     "thermal.rth_ha": "thermal_resistance",
-    "thermal.rth_hs": "thermal_resistance",
 }
 
 GLOSSARY: dict[str, str] = {
