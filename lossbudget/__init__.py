@@ -1,7 +1,7 @@
 """lossbudget: efficiency and thermal loss budgets for switched-mode DC-DC converters.
 
 Public API: :func:`load_design`, :func:`solve`, :func:`sweep`, :func:`check_limits`,
-:func:`write_workbook`, :class:`DesignError`. ``import lossbudget`` stays light: numpy only;
+:func:`write_workbook`, :class:`DesignError`. ``import lossbudget`` stays light: numpy only (the engine loads at import);
 scipy, pandas, matplotlib and openpyxl load when a function needs them.
 """
 
@@ -9,15 +9,16 @@ from __future__ import annotations
 
 from typing import Any
 
-from lossbudget.design import Design, load_design
-from lossbudget.errors import DesignError
-
 __version__ = "0.1.0"
 
+from lossbudget.budget import Budget
+from lossbudget.design import Design, load_design
+from lossbudget.errors import DesignError
+from lossbudget.solver import solve
+from lossbudget.sweep import sweep
+
+
 _LAZY = {
-    "solve": ("lossbudget.solver", "solve"),
-    "Budget": ("lossbudget.solver", "Budget"),
-    "sweep": ("lossbudget.sweep", "sweep"),
     "check_limits": ("lossbudget.limits", "check_limits"),
     "LimitReport": ("lossbudget.limits", "LimitReport"),
     "write_workbook": ("lossbudget.output.workbook", "write_workbook"),
@@ -33,4 +34,13 @@ def __getattr__(name: str) -> Any:
     raise AttributeError(f"module 'lossbudget' has no attribute {name!r}")
 
 
-__all__ = ["Design", "DesignError", "__version__", "load_design", *_LAZY]
+__all__ = [
+    "Budget",
+    "Design",
+    "DesignError",
+    "__version__",
+    "load_design",
+    "solve",
+    "sweep",
+    *_LAZY,
+]

@@ -26,9 +26,10 @@ from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
 from lossbudget.waveforms import integral_extremes_pwl
 
-N_HARMONICS = 48
+N_HARMONICS = 24
 CHUNK = 25_000
 INNER_STEPS = 4
+INNER_STEPS_THERMAL = 2
 THERMAL_TOL = 0.01
 CEILING = 300.0
 ESR_FLOOR = 1e-6
@@ -531,7 +532,7 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
     p_extra = np.zeros(shape)
     l_stage = ctx.l / ind.count
     slow = None
-    for step in range(INNER_STEPS):
+    for step in range(INNER_STEPS if full else INNER_STEPS_THERMAL):
         st = stage_fn(
             vin=vin_eff,
             vc=vc,
@@ -685,8 +686,19 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
                 w.wire_diameter, skin_depth=delta, porosity=w.porosity
             )
         harm = st.i_l.harmonics_rms(N_HARMONICS)
+        n = np.arange(1, N_HARMONICS + 1)
+        # harmonics above the last one summed, from the RMS of the current's derivative
+        n2_tail = st.i_l.derivative_mean_square() / (4 * np.pi**2) - np.sum(
+            n * n * harm * harm, axis=-1
+        )
         out["inductor", "copper_ac"] = mag.copper_ac_loss_dowell(
             dcr, harm, delta1=delta1, layers=ctx.layers
+        ) + mag.copper_ac_tail_dowell(
+            dcr,
+            n2_tail,
+            delta_last=delta1 * np.sqrt(N_HARMONICS),
+            layers=ctx.layers,
+            n_last=N_HARMONICS,
         )
     if not ctx.sync and ctx.rect.leakage is not None:
         i_ref, t_ref, v_ref, dbl = ctx.rect.leakage
@@ -970,7 +982,11 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     infeasible = first.stage.infeasible.copy()
     reason = first.stage.reason.astype(object).copy()
     ok = np.flatnonzero(~infeasible)
-    heated = [ctx.nodes.index(p) for p in ctx.parts]
+    # nodes whose temperature changes some loss: the semiconductors and the winding always,
+    # a capacitor bank only where its ESR is given over temperature
+    heated = [ctx.nodes.index(p) for p in ("switch", "rectifier", "inductor")] + [
+        ctx.nodes.index(c.name) for c in ctx.caps if len(c.esr.t) > 1
+    ]
 
     def power_of(temps, index):
         sub = g.take(ok[index])

@@ -942,3 +942,43 @@ def _flux_density(l: ArrayLike, i: ArrayLike, turns: ArrayLike, ae: ArrayLike) -
     with np.errstate(divide="ignore", invalid="ignore"):
         b = np.asarray(l, dtype=float) * np.asarray(i, dtype=float) / (turns * ae)
     return np.where(ok, b, np.nan)
+
+
+def copper_ac_tail_dowell(rdc: ArrayLike, n2_tail: ArrayLike, *, delta_last: ArrayLike,
+                          layers: ArrayLike, n_last: int) -> np.ndarray:
+    """Eddy loss of the harmonics above the last one summed, from Dowell's growth law.
+
+    Parameters
+    ----------
+    rdc : array_like
+        DC resistance of the winding at its temperature. [ohm]
+    n2_tail : array_like
+        Σ_{n > n_last} n²·I_n², the harmonic tail weighted by n² (from the RMS of the
+        current's derivative less the harmonics summed). [A2]
+    delta_last : array_like
+        Dowell's Δ at the last harmonic summed, Δ1·√n_last. [-]
+    layers : array_like
+        Layers in the winding portion. [-]
+    n_last : int
+        The last harmonic summed. [-]
+
+    Returns
+    -------
+    ndarray
+        Eddy loss of the harmonics above n_last. [W]
+
+    Notes
+    -----
+    At low Δ, Fr − 1 ≈ (5m² − 1)·Δ⁴/45 grows as n², so the tail is
+    Rdc·(Fr(Δ_N) − 1)·Σ_{n>N} n²·I_n²/N², exact in that limit; at high Δ, where Fr − 1 grows
+    only as √n, the same expression over-estimates the (then small) tail.
+
+    References
+    ----------
+    .. [1] P. L. Dowell, "Effects of eddy currents in transformer windings", Proc. IEE,
+       vol. 113, no. 8, pp. 1387–1394, 1966 (low-frequency form of the layer factor).
+    .. [2] W. G. Hurley, E. Gath, J. G. Breslin, IEEE Trans. Power Electron., vol. 15, no. 2,
+       2000 (the RMS of the derivative carries the harmonic sum weighted by n²).
+    """
+    fr = ac_resistance_factor_dowell(delta_last, layers=layers)
+    return np.asarray(rdc) * np.maximum(np.asarray(n2_tail), 0.0) * (fr - 1.0) / (n_last * n_last)
