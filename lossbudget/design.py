@@ -14,6 +14,7 @@ import difflib
 import hashlib
 import json
 import math
+import os
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -1031,10 +1032,10 @@ def _range(rd: _Reader, raw: Any, path: str, *, positive: bool = True) -> Range 
         if tab is None or "min" not in tab or "max" not in tab:
             return None
         lo = rd.quantity(tab["min"], _join(path, "min"), dim_key=path, positive=positive)
-        hi = rd.quantity(tab["max"], _join(path, "max"), dim_key=path, positive=positive)
         if "nom" in tab:
             nom = rd.quantity(tab["nom"], _join(path, "nom"), dim_key=path, positive=positive)
-        else:
+        hi = rd.quantity(tab["max"], _join(path, "max"), dim_key=path, positive=positive)
+        if "nom" not in tab:
             nom = None if lo is None or hi is None else 0.5 * (lo + hi)
             if nom is not None:
                 rd.default(_join(path, "nom"), "midway between min and max")
@@ -1652,7 +1653,7 @@ def load_design(source: str | Path | dict) -> Design:
         except (TypeError, ValueError):  # keys of mixed types, or a circular structure
             text = repr(source)
         checksum = hashlib.sha256(text.encode()).hexdigest()
-    else:
+    elif isinstance(source, str | os.PathLike):
         path = Path(source)
         name = path.name
         try:
@@ -1666,6 +1667,11 @@ def load_design(source: str | Path | dict) -> Design:
         except tomllib.TOMLDecodeError as exc:
             raise DesignError(f"{name}: not valid TOML: {exc}") from None
         checksum = hashlib.sha256(data).hexdigest()
+    else:
+        raise DesignError(
+            f"<{type(source).__name__}>: expected a path to a TOML design file or a dict "
+            "of the same shape"
+        )
     rd = _Reader(name)
     top = rd.table(
         raw,

@@ -1,0 +1,161 @@
+"""The command line: a thin click shell over the public API.
+
+Each command turns its options into arguments, makes one library call and prints or writes.
+No physics lives here. Bad input of any kind (a design file, a quantity, a path, click's own
+usage errors) ends as one line per problem on stderr and exit status 2; a traceback is shown
+only with ``--debug``. The heavy libraries (scipy, pandas, matplotlib, openpyxl) load inside
+the commands that need them, so ``lossbudget --help`` stays fast.
+
+Exit status: 0 done, 1 a limit check failed, 2 bad input, 3 an internal error (a bug).
+"""
+
+from __future__ import annotations
+
+import functools
+import sys
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any, TypeVar
+
+import click
+
+from lossbudget import __version__
+from lossbudget.design import Design, load_design
+from lossbudget.errors import DesignError
+from lossbudget.output.tables import aligned_table
+
+EXIT_OK = 0
+EXIT_LIMIT_FAILED = 1
+EXIT_BAD_INPUT = 2
+EXIT_INTERNAL = 3
+
+PROG = "lossbudget"
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+
+class BadInput(click.ClickException):
+    """A one-line error about the user's input; exit status 2."""
+
+    exit_code = EXIT_BAD_INPUT
+
+    def show(self, file: Any = None) -> None:
+        click.echo(f"{PROG}: {self.format_message()}", err=True)
+
+
+class _Group(click.Group):
+    """A group whose usage errors (its own and its commands') print as one line."""
+
+    def make_context(self, info_name: str | None, args: list[str], parent=None, **extra):
+        return _one_line_usage(super().make_context, info_name, args, parent=parent, **extra)
+
+    def resolve_command(self, ctx: click.Context, args: list[str]):
+        return _one_line_usage(super().resolve_command, ctx, args)
+
+    def invoke(self, ctx: click.Context) -> Any:
+        return _one_line_usage(super().invoke, ctx)
+
+
+def _one_line_usage(call: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
+    try:
+        return call(*args, **kwargs)
+    except click.exceptions.NoArgsIsHelpError:
+        raise  # prints the help, as asked
+    except click.UsageError as exc:
+        ctx = exc.ctx
+        where = ctx.command_path if ctx is not None else PROG
+        raise BadInput(f"{exc.format_message()} (see '{where} -h')") from exc
+
+
+def _debug() -> bool:
+    ctx = click.get_current_context(silent=True)
+    return bool(ctx is not None and ctx.find_root().params.get("debug"))
+
+
+def reports_bad_input(func: F) -> F:
+    """Turn bad input into one line per problem on stderr and exit 2 (traceback with --debug).
+
+    A :class:`DesignError` prints each of its problems; an ``OSError`` (a file that cannot be
+    read or written) prints its path and reason. Any other exception is a bug: one line and
+    exit 3, unless ``--debug`` asks for the traceback.
+    """
+
+    @functools.wraps(func)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        try:
+            return func(*args, **kwargs)
+        except (click.ClickException, click.exceptions.Exit, click.Abort, BrokenPipeError):
+            raise  # click reports these itself (a closed pipe ends quietly)
+        except DesignError as exc:
+            if _debug():
+                raise
+            for line in exc.problems:
+                click.echo(line, err=True)
+            sys.exit(EXIT_BAD_INPUT)
+        except OSError as exc:
+            if _debug():
+                raise
+            name = exc.filename if exc.filename is not None else ""
+            click.echo(f"{PROG}: {name}: {exc.strerror or exc}".replace(": : ", ": "), err=True)
+            sys.exit(EXIT_BAD_INPUT)
+        except Exception as exc:
+            if _debug():
+                raise
+            click.echo(
+                f"{PROG}: internal error ({type(exc).__name__}: {exc}); "
+                "run again with --debug for the traceback",
+                err=True,
+            )
+            sys.exit(EXIT_INTERNAL)
+
+    return wrapper  # type: ignore[return-value]
+
+
+design_argument = click.argument(
+    "design", metavar="DESIGN", type=click.Path(dir_okay=False, path_type=Path)
+)
+"""The positional design-file argument every design command takes."""
+
+
+def read_design(path: Path) -> Design:
+    """Load a design file for a command (errors are reported by :func:`reports_bad_input`)."""
+    return load_design(path)
+
+
+@click.group(
+    cls=_Group,
+    context_settings={"help_option_names": ["-h", "--help"]},
+    epilog=(
+        "Exit status: 0 done; 1 a limit check failed; 2 bad input (design file, option or "
+        "path; one line per problem on stderr); 3 an internal error."
+    ),
+)
+@click.version_option(__version__, "--version", prog_name=PROG, message="%(prog)s %(version)s")
+@click.option("--debug", is_flag=True, help="Show the traceback of an error.")
+def main(debug: bool) -> None:
+    """Loss and thermal budgets of DC-DC converter stages from a design file.
+
+    Every loss of a boost, buck or inverting buck-boost stage, from datasheet-level
+    parameters, coupled to a thermal-resistance network and checked against limits.
+    """
+
+
+@main.command()
+@design_argument
+@reports_bad_input
+def validate(design: Path) -> None:
+    """Check a design file and print every resolved parameter with its unit.
+
+    Defaults that were applied are listed after the parameters; warnings go to stderr.
+    """
+    d = read_design(design)
+    click.echo(f"{d.name} ({d.source}): valid")
+    rect = "synchronous rectifier" if d.rectifier_kind == "sync" else "diode rectifier"
+    click.echo(f"{d.topology}, {rect}; sha256 {d.checksum[:16]}")
+    click.echo()
+    click.echo(aligned_table(("parameter", "value"), d.resolved))
+    if d.defaults:
+        click.echo()
+        click.echo(aligned_table(("default applied", "value"), d.defaults))
+    for line in d.warnings:
+        click.echo(f"warning: {line}", err=True)
