@@ -555,7 +555,14 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
             slow = _slow_losses(
                 ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=full
             )
-        p_new = sum(edge.values()) + sum(slow["losses"].values())
+        # the volt-second balance carries each resistive drop at its interval's mean current;
+        # the ripple's share of the I²R losses is drawn at the edges like the others
+        p_ripple = (
+            r_sw * st.i_switch.ripple_square()
+            + r_rect * st.i_rect.ripple_square()
+            + r_l * st.i_l.ripple_square()
+        )
+        p_new = sum(edge.values()) + sum(slow["losses"].values()) + p_ripple
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
         vin_eff = g.vin - rp["input"] * i_in_total
         p_extra = p_new

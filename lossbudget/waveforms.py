@@ -36,6 +36,10 @@ class Pwl:
         """Mean of the square over the period (RMS squared)."""
         return mean_square_pwl(self.durations, self.start, self.end)
 
+    def ripple_square(self) -> np.ndarray:
+        """Mean square less the mean square of each segment's mean: Σ d·(b − a)²/12."""
+        return np.sum(self.durations * (self.end - self.start) ** 2, axis=-1) / 12.0
+
     def rms(self) -> np.ndarray:
         """RMS value over the period."""
         return np.sqrt(self.mean_square())
