@@ -564,8 +564,10 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
         )
         p_new = sum(edge.values()) + sum(slow["losses"].values()) + p_ripple
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
-        vin_eff = g.vin - rp["input"] * i_in_total
-        p_extra = p_new
+        # an infeasible point keeps its first, finite inputs so that its reason stays the
+        # stage's own (NaN would turn every check false)
+        vin_eff = np.where(np.isfinite(i_in_total), g.vin - rp["input"] * i_in_total, g.vin)
+        p_extra = np.where(np.isfinite(p_new), p_new, 0.0)
     losses: dict[tuple[str, str], np.ndarray] = {}
     zeros: dict[tuple[str, str], np.ndarray] = dict(zero)
     # conduction
