@@ -1,8 +1,8 @@
 """lossbudget: efficiency and thermal loss budgets for switched-mode DC-DC converters.
 
 Public API: :func:`load_design`, :func:`solve`, :func:`sweep`, :func:`check_limits`,
-:func:`write_workbook`, :class:`DesignError`. ``import lossbudget`` stays light: numpy only (the engine loads at import);
-scipy, pandas, matplotlib and openpyxl load when a function needs them.
+:func:`write_workbook`, :class:`DesignError`. ``import lossbudget`` loads the engine with numpy
+only; scipy, pandas, matplotlib and openpyxl load when a function needs them.
 """
 
 from __future__ import annotations
@@ -16,7 +16,6 @@ from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
 from lossbudget.solver import solve
 from lossbudget.sweep import sweep
-
 
 _LAZY = {
     "check_limits": ("lossbudget.limits", "check_limits"),

@@ -412,7 +412,7 @@ def solve_coupled(
     ceiling: float = 300.0,
     heated: Sequence[int | str] | None = None,
 ) -> CoupledSolution:
-    """Coupled electro-thermal fixed point T = T_a + Z·P(T) for many operating points.
+    """Coupled electro-thermal fixed point T = T_a + Z·P(T) over many points.
 
     Parameters
     ----------

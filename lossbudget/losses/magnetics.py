@@ -946,7 +946,7 @@ def _flux_density(l: ArrayLike, i: ArrayLike, turns: ArrayLike, ae: ArrayLike) -
 
 def copper_ac_tail_dowell(rdc: ArrayLike, n2_tail: ArrayLike, *, delta_last: ArrayLike,
                           layers: ArrayLike, n_last: int) -> np.ndarray:
-    """Eddy loss of the harmonics above the last one summed, from Dowell's growth law.
+    """Eddy loss of the harmonics above the last one summed (Dowell).
 
     Parameters
     ----------

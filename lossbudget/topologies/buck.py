@@ -99,7 +99,7 @@ def steady_state(
             a, b = slopes(i)
             return np.sqrt(np.maximum(2.0 * i_out / (lf * (1.0 / a + 1.0 / b)), 0.0))
 
-        a0, b0 = slopes(0.0)
+        a0, _ = slopes(0.0)
         ipk_d, conv = dcm_peak_fixed_point(update(np.zeros_like(vin)), update)
         a_d, b_d = slopes(ipk_d)
         duty_d = ipk_d * lf / a_d

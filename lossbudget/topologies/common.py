@@ -114,7 +114,7 @@ def inductor_segments(i_valley, i_pk, i_end, duty, gap, d2):
 
 
 def gap_fraction(q_gap, i_pk, i_end, d2):
-    """Fraction of the period that carries a given charge at the top of the falling slope.
+    """Fraction of the period that carries a charge atop the falling slope.
 
     Parameters
     ----------
