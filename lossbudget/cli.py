@@ -159,3 +159,8 @@ def validate(design: Path) -> None:
         click.echo(aligned_table(("default applied", "value"), d.defaults))
     for line in d.warnings:
         click.echo(f"warning: {line}", err=True)
+
+
+from lossbudget.commands.point import point  # noqa: E402
+
+main.add_command(point)

@@ -1,0 +1,173 @@
+"""``lossbudget point``: one operating point, every loss, temperatures and stresses."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+import numpy as np
+
+from lossbudget.cautions import CAUTIONS
+from lossbudget.cli import BadInput, design_argument, read_design, reports_bad_input
+from lossbudget.output.tables import aligned_table
+from lossbudget.units import format_quantity, parse_quantity
+
+
+def quantity(text: str | None, dimension: str, option: str) -> float | None:
+    """Parse a command-line quantity ("24 V" or a bare SI number) or raise BadInput."""
+    if text is None:
+        return None
+    try:
+        value: object = float(text)
+    except ValueError:
+        value = text
+    try:
+        return parse_quantity(value, dimension, where=option)
+    except ValueError as exc:
+        raise BadInput(str(exc)) from None
+
+
+def point_report(budget) -> str:
+    """The text report of a one-point budget (loss table, figures, temperatures, stresses)."""
+    c = {k: float(np.asarray(v).ravel()[0]) for k, v in budget.coords.items()}
+    lines = [
+        f"{budget.design_name}: operating point, {budget.provenance['corner']} part values",
+        f"  vin {format_quantity(c['vin'], 'voltage')}   vout {format_quantity(c['vout'], 'voltage')}"
+        f"   load {format_quantity(c['load'], 'current')}   ambient {c['ambient']:g} degC"
+        f"   fsw {format_quantity(c['fsw'], 'frequency')}",
+    ]
+    if bool(np.asarray(budget.flagged).ravel()[0]):
+        lines.append(f"  not solved: {np.asarray(budget.reason).ravel()[0]}")
+        return "\n".join(lines)
+    eff = float(np.asarray(budget.efficiency).ravel()[0])
+    total = float(np.asarray(budget.total_loss).ravel()[0])
+    lines.append(
+        f"  efficiency {eff * 100:.2f} %   loss {total:.3f} W   output {float(budget.output_power.ravel()[0]):.2f} W"
+        f"   duty {float(budget.duty.ravel()[0]):.4f}   D2 {float(budget.d2.ravel()[0]):.4f}"
+        f"   mode {budget.mode.ravel()[0]}"
+        + (
+            "   (inductor current reverses)"
+            if bool(budget.flags["reverse_current"].ravel()[0])
+            else ""
+        )
+    )
+    lines.append(f"  output ripple {float(budget.vout_pp.ravel()[0]) * 1e3:.1f} mV peak-to-peak")
+    lines.append("")
+    rows = []
+    for comp in budget.components:
+        for mech in budget.mechanisms(comp):
+            status = str(budget.status(comp, mech).ravel()[0])
+            value = float(budget.loss(comp, mech).ravel()[0])
+            shown = f"{value:.4f}" if status.startswith(("computed", "zero")) else "-"
+            share = f"{value / total * 100:.1f} %" if shown != "-" else ""
+            rows.append([comp, mech, shown, share, status])
+    rows.append(["total", "", f"{total:.4f}", "100.0 %", ""])
+    lines.append(
+        aligned_table(
+            ["component", "mechanism", "loss (W)", "share", "status"],
+            rows,
+            right=[False, False, True, True, False],
+            indent="  ",
+        )
+    )
+    lines.append("")
+    trows = []
+    for node, temp in budget.temperatures.items():
+        limit = budget.temperature_limits.get(node)
+        t = float(temp.ravel()[0])
+        trows.append(
+            [
+                node,
+                f"{t:.1f}",
+                "" if limit is None else f"{limit:g}",
+                "" if limit is None else f"{limit - t:.1f}",
+            ]
+        )
+    lines.append(
+        aligned_table(
+            ["node", "temperature (degC)", "limit (degC)", "margin (K)"],
+            trows,
+            right=[False, True, True, True],
+            indent="  ",
+        )
+    )
+    lines.append("")
+    comps: list[str] = []
+    for comp, _ in budget.stresses:
+        if comp not in comps:
+            comps.append(comp)
+    srows = []
+    for comp in comps:
+        row = [comp]
+        for q, fmt in (
+            ("i_avg", "{:.3f}"),
+            ("i_rms", "{:.3f}"),
+            ("i_pk", "{:.3f}"),
+            ("v_pk", "{:.2f}"),
+            ("b_pk", "{:.4f}"),
+            ("delta_b", "{:.4f}"),
+        ):
+            row.append(
+                fmt.format(float(budget.stresses[comp, q].ravel()[0]))
+                if (comp, q) in budget.stresses
+                else ""
+            )
+        srows.append(row)
+    lines.append(
+        aligned_table(
+            ["part", "I avg (A)", "I rms (A)", "I pk (A)", "V pk (V)", "B pk (T)", "dB pp (T)"],
+            srows,
+            right=[False] + [True] * 6,
+            indent="  ",
+        )
+    )
+    missing = budget.not_modelled
+    if missing:
+        lines.append("")
+        lines.append("  not modelled (the key that would enable each):")
+        lines.extend(f"    {c} {m}: {key}" for c, m, key in missing)
+    if budget.flags["extrapolated"].ravel()[0]:
+        lines.append("  note: a temperature law or the core-loss fit is extrapolated here")
+    warnings = budget.provenance.get("warnings", [])
+    if warnings:
+        lines.append("")
+        lines.extend(f"  warning: {w}" for w in warnings)
+    lines.append("")
+    lines.extend(f"  caution: {text}" for text in CAUTIONS)
+    return "\n".join(lines)
+
+
+@click.command()
+@design_argument
+@click.option("--vin", help='Input voltage, e.g. "24 V" [V]; default the nominal.')
+@click.option("--load", "load_", help='Output current, e.g. "4 A" [A]; default the rated.')
+@click.option("--load-pct", type=float, help="Output current as percent of rated [%].")
+@click.option("--ambient", help='Ambient temperature, e.g. "40 degC" [degC or K].')
+@click.option("--fsw", help='Switching frequency, e.g. "250 kHz" [Hz]; default the nominal.')
+@click.option(
+    "--corner",
+    type=click.Choice(["typ", "worst"]),
+    default="typ",
+    show_default=True,
+    help="Part values: typical or worst case.",
+)
+@reports_bad_input
+def point(design: Path, vin, load_, load_pct, ambient, fsw, corner) -> None:
+    """One operating point: every loss by component and mechanism, efficiency, duty, mode,
+    temperatures against each part's limit, and stresses."""
+    from lossbudget.solver import solve
+
+    if load_ is not None and load_pct is not None:
+        raise BadInput("give --load or --load-pct, not both")
+    d = read_design(design)
+    op = d.operating
+    budget = solve(
+        d,
+        vin=quantity(vin, "voltage", "--vin") if vin is not None else op.vin.nom,
+        load=quantity(load_, "current", "--load"),
+        load_fraction=None if load_pct is None else load_pct / 100.0,
+        ambient=quantity(ambient, "temperature", "--ambient"),
+        fsw=quantity(fsw, "frequency", "--fsw"),
+        corner=corner,
+    )
+    click.echo(point_report(budget))
