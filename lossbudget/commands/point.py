@@ -32,7 +32,8 @@ def point_report(budget) -> str:
     c = {k: float(np.asarray(v).ravel()[0]) for k, v in budget.coords.items()}
     lines = [
         f"{budget.design_name}: operating point, {budget.provenance['corner']} part values",
-        f"  vin {format_quantity(c['vin'], 'voltage')}   vout {format_quantity(c['vout'], 'voltage')}"
+        f"  vin {format_quantity(c['vin'], 'voltage')}"
+        f"   vout {format_quantity(c['vout'], 'voltage')}"
         f"   load {format_quantity(c['load'], 'current')}   ambient {c['ambient']:g} degC"
         f"   fsw {format_quantity(c['fsw'], 'frequency')}",
     ]
@@ -42,7 +43,8 @@ def point_report(budget) -> str:
     eff = float(np.asarray(budget.efficiency).ravel()[0])
     total = float(np.asarray(budget.total_loss).ravel()[0])
     lines.append(
-        f"  efficiency {eff * 100:.2f} %   loss {total:.3f} W   output {float(budget.output_power.ravel()[0]):.2f} W"
+        f"  efficiency {eff * 100:.2f} %   loss {total:.3f} W"
+        f"   output {float(budget.output_power.ravel()[0]):.2f} W"
         f"   duty {float(budget.duty.ravel()[0]):.4f}   D2 {float(budget.d2.ravel()[0]):.4f}"
         f"   mode {budget.mode.ravel()[0]}"
         + (
