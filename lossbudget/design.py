@@ -21,7 +21,14 @@ from pathlib import Path
 from typing import Any, Literal
 
 from lossbudget.errors import DesignError
-from lossbudget.units import GLOSSARY, format_quantity, glossary_dimension, parse_quantity
+from lossbudget.units import (
+    GLOSSARY,
+    format_quantity,
+    glossary_dimension,
+    parse_quantity,
+    printable,
+    quote_text,
+)
 
 Topology = Literal["boost", "buck", "buck-boost"]
 RectifierKind = Literal["diode", "sync"]
@@ -377,10 +384,10 @@ class _Reader:
         self.warnings: list[str] = []
 
     def problem(self, path: str, message: str) -> None:
-        self.problems.append(f"{self.source}: {path or '(top level)'}: {message}")
+        self.problems.append(printable(f"{self.source}: {path or '(top level)'}: {message}"))
 
     def warn(self, path: str, message: str) -> None:
-        self.warnings.append(f"{self.source}: {path}: {message}")
+        self.warnings.append(printable(f"{self.source}: {path}: {message}"))
 
     def unknown(self, path: str, key: Any, allowed: tuple[str, ...]) -> None:
         """Report an unknown key with the nearest valid one."""
@@ -704,7 +711,7 @@ def _join(path: str, key: Any) -> str:
 
 def _show(raw: Any) -> str:
     if isinstance(raw, str):
-        return f'"{raw}"'
+        return quote_text(raw)
     if isinstance(raw, dict):
         return "a table"
     if isinstance(raw, list):

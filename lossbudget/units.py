@@ -167,6 +167,17 @@ def _unit_scale(text: str, dim: Dimension) -> tuple[float, float] | None:
     return None
 
 
+def printable(text: str) -> str:
+    """Text with its non-printable characters escaped (a newline shows as \\n), so that a
+    problem stays on one line; other characters, µ and Ω included, are kept."""
+    return "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+
+
+def quote_text(text: str) -> str:
+    """A string as an error message shows it: in double quotes, on one line."""
+    return f'"{printable(text)}"'
+
+
 def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
     """Parse a bare SI number or a unit string into an SI float.
 
@@ -204,17 +215,17 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
     else:
         match = _NUMBER.match(value)
         if match is None:
-            raise DesignError(f'{prefix}expected {expected}, got "{value}"')
+            raise DesignError(f"{prefix}expected {expected}, got {quote_text(value)}")
         number = float(match.group(1))
         unit_text = match.group(2)
         if unit_text:
             scale_offset = _unit_scale(unit_text, dim)
             if scale_offset is None:
-                raise DesignError(f'{prefix}expected {expected}, got "{value}"')
+                raise DesignError(f"{prefix}expected {expected}, got {quote_text(value)}")
             scale, offset = scale_offset
             number = number * scale + offset
         elif not dim.bare_ok:
-            raise DesignError(f'{prefix}expected {expected}, got "{value}"')
+            raise DesignError(f"{prefix}expected {expected}, got {quote_text(value)}")
     if not math.isfinite(number):
         raise DesignError(f"{prefix}expected a finite {expected}, got {value!r}")
     return number

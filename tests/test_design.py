@@ -484,6 +484,16 @@ def test_several_problems_reported_together():
     assert str(exc.value).count("\n") == len(problems) - 1
 
 
+def test_a_newline_in_a_value_or_a_key_stays_on_one_line():
+    raw = demo_raw()
+    raw["inductor"]["l"] = "22\nuF"
+    raw["inductor"]["x\ny"] = 1
+    problems = problems_of(raw)
+    assert '<dict>: inductor.l: expected inductance (H), got "22\\nuF"' in problems
+    assert all("\n" not in p for p in problems)
+    assert any(p.startswith("<dict>: inductor.x\\ny: unknown key") for p in problems)
+
+
 def test_unreadable_and_malformed_files(tmp_path):
     with pytest.raises(DesignError, match=r"cannot read the design file"):
         load_design(tmp_path / "absent.toml")
@@ -534,6 +544,8 @@ _REPLACEMENTS = [
     {"typ": "2 V", "min": "1 V"},
     [{"at": "25 degC"}],
     {"r": "1 ohm", "at": "300 K"},
+    "22\nuF",  # a TOML multi-line string: the problem must stay on one line
+    {"typ\nx": "1 V"},
 ]
 _UNITS = ["V", "mV", "A", "ohm", "mohm", "uH", "nF", "nC", "uJ", "kHz", "ns", "degC", "K", "K/W"]
 

@@ -166,6 +166,12 @@ def test_rejection_names_the_key_and_what_was_expected():
     assert isinstance(exc.value, ValueError)
 
 
+def test_rejection_keeps_micro_and_ohm_signs_and_escapes_a_newline():
+    with pytest.raises(DesignError) as exc:
+        parse_quantity("22 \u00b5\u2126\n", "inductance", where="x.toml: inductor.l")
+    assert str(exc.value) == 'x.toml: inductor.l: expected inductance (H), got "22 \u00b5\u2126\\n"'
+
+
 def test_rejection_of_volume_given_as_area():
     with pytest.raises(DesignError, match=r'inductor\.core\.ve: expected volume \(m3\), got "11'):
         parse_quantity("11.4 cm2", "volume", where="cart.toml: inductor.core.ve")
