@@ -402,7 +402,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
         out["rectifier", "turn_off"] = np.where(reversed_, e_off_r, 0.0) * fsw
         zero["rectifier", "turn_off"] = np.where(
             reversed_,
-            "",
+            np.where(e_off_r == 0, "capacitive turn-off (slow node)", ""),
             np.where(
                 dcm, "zero-current turn-off (diode emulation)", "body diode clamps the turn-off"
             ),
