@@ -1,0 +1,800 @@
+"""Limit and derating checks of every part over the operating envelope.
+
+Sits after :mod:`lossbudget.sweep` in the data flow. Each part carries its absolute limits
+(junction or hot-spot temperature, voltage rating against the peak blocking voltage plus the
+ringing allowance ``limits.v_spike``, saturation current against the peak current and the
+controller's current limit, peak flux, capacitor voltage, ripple current and temperature,
+electrolytic life). A derating profile, kept as data in ``data/derating.toml`` with the
+document and status behind every number, or the design's own ``[limits.margins]``, turns them
+into design limits. The envelope (input voltage × output voltage × load up to rated × ambient,
+and the switching frequency where it has a range) is solved at the worst-case part values on
+one vectorised grid; each part's worst point is then refined on a zoomed local grid where it
+lies inside an axis. The result is a :class:`LimitReport`.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from importlib import resources
+from typing import Any, Literal
+
+import numpy as np
+
+from lossbudget.budget import AXES, AXIS_COLUMNS, Budget
+from lossbudget.cautions import CAUTIONS
+from lossbudget.design import DERATING_PROFILES, Corner, Design, Diode
+from lossbudget.errors import DesignError
+from lossbudget.solver import solve
+from lossbudget.sweep import sweep
+from lossbudget.units import format_quantity
+
+Status = Literal["ok", "caution", "fail"]
+STATUS_ORDER: tuple[Status, ...] = ("ok", "caution", "fail")
+
+PART_KINDS = ("mosfet", "diode", "inductor", "capacitor", "electrolytic")
+KIND_QUANTITIES: dict[str, tuple[str, ...]] = {
+    "mosfet": ("t_j", "v_pk"),
+    "diode": ("t_j", "v_pk"),
+    "inductor": ("t_hot", "i_pk", "i_limit", "b_pk"),
+    "capacitor": ("v_pk", "i_rms", "t_hot"),
+    "electrolytic": ("v_pk", "i_rms", "t_hot"),
+}
+BASIS_STATUSES = ("published", "common practice", "from memory (verify)", "absolute rating")
+
+# The envelope grid: load fractions of the rated output current, points per axis.
+LOAD_FRACTIONS = (0.02, 0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0)
+VIN_POINTS = 7
+REFINE_TOLERANCE = 0.01  # of each axis's span (load: of the rated current)
+REFINE_POINTS = {1: 11, 2: 7, 3: 5}  # local grid points per axis by the number refined
+REFINE_ROUNDS = 8
+ONSET_POINTS = 21  # load points between the last good and the first runaway grid load
+
+_DIMENSION = {"degC": "temperature", "V": "voltage", "A": "current", "T": "flux_density",
+              "h": "duration"}
+
+
+# --------------------------------------------------------------------------------------------
+# derating profiles (data)
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Margin:
+    """One derating row: how far below a part's absolute limit the design limit sits.
+
+    Temperatures: ``below_k`` kelvin below the limit and, where given, at most
+    ``at_most_degc``. Voltages, currents and flux: ``of_rating``, the fraction of the rating
+    allowed. ``document`` and ``status`` say where the number comes from.
+    """
+
+    kind: str
+    quantity: str
+    below_k: float | None = None
+    at_most_degc: float | None = None
+    of_rating: float | None = None
+    document: str
+    status: str
+    caveat: str = ""
+
+    def design_limit(self, absolute: np.ndarray) -> np.ndarray:
+        """The design limit from the absolute limit (same unit)."""
+        absolute = np.asarray(absolute, dtype=float)
+        if self.of_rating is not None:
+            return absolute * self.of_rating
+        limit = absolute - (self.below_k or 0.0)
+        if self.at_most_degc is not None:
+            limit = np.minimum(limit, self.at_most_degc)
+        return limit
+
+    @property
+    def basis(self) -> str:
+        """The document and status behind the number, in one line."""
+        text = f"{self.document} — {self.status}"
+        return f"{text}; {self.caveat}" if self.caveat else text
+
+
+def derating_profiles() -> dict[str, dict[tuple[str, str], Margin]]:
+    """Read every derating profile from ``lossbudget/data/derating.toml``.
+
+    Returns
+    -------
+    dict
+        Profile name -> {(part kind, quantity): Margin}.
+    """
+    text = resources.files("lossbudget").joinpath("data/derating.toml").read_text("utf-8")
+    raw = tomllib.loads(text)
+    where = "lossbudget/data/derating.toml"
+    out: dict[str, dict[tuple[str, str], Margin]] = {}
+    for name, prof in raw.items():
+        rows: dict[tuple[str, str], Margin] = {}
+        for kind, table in prof.items():
+            if kind == "summary":
+                continue
+            if kind not in KIND_QUANTITIES:
+                raise DesignError(f"{where}: {name}.{kind}: expected a part kind, one of "
+                                  f"{', '.join(PART_KINDS)}")
+            for qty, row in table.items():
+                path = f"{where}: {name}.{kind}.{qty}"
+                if qty not in KIND_QUANTITIES[kind]:
+                    raise DesignError(f"{path}: expected one of "
+                                      f"{', '.join(KIND_QUANTITIES[kind])}")
+                if row.get("status") not in BASIS_STATUSES or not row.get("document"):
+                    raise DesignError(f"{path}: expected a document and a status, one of "
+                                      f"{', '.join(BASIS_STATUSES)}")
+                temperature = qty.startswith("t")
+                if temperature == ("of_rating" in row) or (
+                        not temperature and not 0 < row["of_rating"] <= 1):
+                    raise DesignError(f"{path}: expected below_k for a temperature, of_rating "
+                                      "in (0, 1] otherwise")
+                rows[kind, qty] = Margin(
+                    kind=kind, quantity=qty, below_k=row.get("below_k"),
+                    at_most_degc=row.get("at_most_degc"), of_rating=row.get("of_rating"),
+                    document=row["document"], status=row["status"], caveat=row.get("caveat", ""),
+                )
+        out[name] = rows
+    return out
+
+
+def _margins_for(design: Design, derating: str | None) -> tuple[str, dict[tuple[str, str], Margin]]:
+    """The profile's rows, overridden by the design's ``[limits.margins]`` rows."""
+    name = derating if derating is not None else design.limits.derating
+    allowed = (*DERATING_PROFILES, "custom")
+    if name not in allowed:
+        raise ValueError(f"derating: expected one of {', '.join(allowed)}, got {name!r}")
+    if name == "custom" and not design.limits.margins:
+        raise DesignError(f'{design.source}: limits.derating: "custom" needs [limits.margins]')
+    profiles = derating_profiles()
+    rows = dict(profiles["moderate" if name == "custom" else name])
+    base = "moderate" if name == "custom" else name
+    problems = []
+    for kind, qty, value in design.limits.margins:
+        path = f"{design.source}: limits.margins.{kind}"
+        if kind not in KIND_QUANTITIES:
+            problems.append(f"{path}: unknown part kind; expected one of {', '.join(PART_KINDS)}")
+            continue
+        if qty not in KIND_QUANTITIES[kind]:
+            problems.append(f"{path}.{qty}: unknown quantity; expected one of "
+                            f"{', '.join(KIND_QUANTITIES[kind])}")
+            continue
+        key = f"limits.margins.{kind}.{qty}"
+        if qty.startswith("t"):
+            m = Margin(kind=kind, quantity=qty, below_k=value,
+                       document=f"{key} = {value:g} K below the limit (design file)",
+                       status="the design's own margin")
+        else:
+            m = Margin(kind=kind, quantity=qty, of_rating=1.0 - value,
+                       document=f"{key} = {value * 100:g} % below the rating (design file)",
+                       status="the design's own margin")
+        rows[kind, qty] = m
+    if problems:
+        raise DesignError(problems)
+    label = name if name != "custom" else f"custom ({base} for the rows not named)"
+    return label, rows
+
+
+# --------------------------------------------------------------------------------------------
+# the models of the limits
+# --------------------------------------------------------------------------------------------
+
+
+def electrolytic_life_10k(t_hot, *, rated, at):
+    """Electrolytic capacitor life at a hot-spot temperature by the 10-kelvin rule.
+
+    Parameters
+    ----------
+    t_hot : array_like
+        Hot-spot (core) temperature, ripple self-heating included. [degC]
+    rated : float
+        Rated life at the rated temperature. [h]
+    at : float
+        Temperature the life is rated at. [degC]
+
+    Returns
+    -------
+    ndarray
+        Expected life. [h]
+
+    Notes
+    -----
+    L = L0 · 2^((T0 − T)/10 K): the life doubles for every 10 K below the rated temperature,
+    an Arrhenius approximation. Not valid above the rated temperature; voltage and ripple
+    factors are vendor-specific and not applied.
+
+    References
+    ----------
+    .. [1] The "10-kelvin rule" of aluminium electrolytic capacitors: common practice, with
+       no single published source (project reference note, electrolytic lifetime).
+    """
+    t_hot = np.asarray(t_hot, dtype=float)
+    return rated * np.exp2((at - t_hot) / 10.0)
+
+
+def i_sat_at(t, *, points_t, points_i):
+    """Saturation current at a temperature through the datasheet points.
+
+    Parameters
+    ----------
+    t : array_like
+        Inductor (hot-spot) temperature. [degC]
+    points_t : sequence of float
+        Temperatures of the datasheet points, ascending. [degC]
+    points_i : sequence of float
+        Saturation currents at those temperatures. [A]
+
+    Returns
+    -------
+    ndarray
+        Saturation current, never below zero. [A]
+
+    Notes
+    -----
+    Linear between the points; below the coldest point it keeps the coldest value (no credit
+    for cold), above the hottest it continues the last segment's slope (saturation keeps
+    falling when hot). A single point is a constant.
+
+    References
+    ----------
+    .. [1] Peak current against i_sat(T): R. W. Erickson, D. Maksimović, *Fundamentals of
+       Power Electronics*, 2nd ed., 2001, inductor design chapter (B_max = L·I_max/(n·A_c));
+       the interpolation is common practice.
+    """
+    t = np.asarray(t, dtype=float)
+    pt = np.asarray(points_t, dtype=float)
+    pi = np.asarray(points_i, dtype=float)
+    if pt.size == 1:
+        return np.full(t.shape, pi[0])
+    slope = (pi[-1] - pi[-2]) / (pt[-1] - pt[-2])
+    hot = pi[-1] + slope * (t - pt[-1])
+    return np.maximum(np.where(t > pt[-1], hot, np.interp(t, pt, pi)), 0.0)
+
+
+# --------------------------------------------------------------------------------------------
+# results
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class LimitRow:
+    """One part and limit over the envelope.
+
+    ``worst`` is the worst value found (the highest; for ``life`` the lowest) and ``where``
+    the operating point (axis -> value: vin [V], vout [V], load [A], ambient [degC], fsw [Hz]).
+    ``margin`` is ``design_limit - worst`` in kelvin for temperatures, and as a fraction of
+    the design limit for the others (``margin_unit`` says which); negative past the limit.
+    """
+
+    part: str
+    quantity: str
+    unit: str
+    worst: float
+    where: dict[str, float]
+    design_limit: float
+    absolute_limit: float
+    margin: float
+    margin_unit: str
+    status: Status
+    basis: str
+    note: str = ""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class LimitReport:
+    """Every part's limits over the envelope, at one corner and derating profile."""
+
+    design_name: str
+    derating: str
+    corner: Corner
+    rows: tuple[LimitRow, ...]
+    worst_status: Status
+    cautions: tuple[str, ...] = CAUTIONS
+    grid: str = ""
+    not_checked: tuple[tuple[str, str, str], ...] = ()
+    envelope: dict[str, tuple[float, ...]] = field(default_factory=dict, repr=False)
+
+    @property
+    def varying_axes(self) -> tuple[str, ...]:
+        """The axes of the envelope with more than one value, in the order of the axes."""
+        return tuple(a for a in AXES if len(self.envelope.get(a, ())) > 1)
+
+    def to_frame(self):
+        """The rows as a pandas DataFrame (one column per axis of ``where``)."""
+        import pandas as pd
+
+        records = []
+        for r in self.rows:
+            rec: dict[str, Any] = {"part": r.part, "quantity": r.quantity, "unit": r.unit,
+                                   "worst": r.worst}
+            for a in AXES:
+                if a in r.where:
+                    rec[f"where_{AXIS_COLUMNS[a]}"] = r.where[a]
+            rec.update(design_limit=r.design_limit, absolute_limit=r.absolute_limit,
+                       margin=r.margin, margin_unit=r.margin_unit, status=r.status,
+                       basis=r.basis, note=r.note)
+            records.append(rec)
+        return pd.DataFrame.from_records(records)
+
+
+# --------------------------------------------------------------------------------------------
+# the checks
+# --------------------------------------------------------------------------------------------
+
+Measure = Callable[[Budget], tuple[np.ndarray, np.ndarray]]
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class _Check:
+    part: str
+    quantity: str
+    unit: str
+    kind: str | None  # derating kind (None: no derating row, e.g. life)
+    measure: Measure  # budget -> (value, absolute limit), arrays of the budget's shape
+    lower_is_worse: bool = False
+    note: Callable[[Budget, int], str] | None = None  # budget, flat index of the worst
+
+
+def _key(check: _Check, value: np.ndarray, absolute: np.ndarray) -> np.ndarray:
+    """Ranking of the points for one check: larger is worse; NaN where not evaluated."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        if check.lower_is_worse:
+            return absolute / value
+        if check.unit == "degC":
+            return value - absolute
+        return value / absolute
+
+
+def _full(b: Budget, x: float) -> np.ndarray:
+    return np.where(b.flagged, np.nan, float(x))
+
+
+def _q(x: float, dim: str) -> str:
+    if dim == "duration":
+        return f"{x:,.0f} h"
+    return format_quantity(x, dim, digits=4)
+
+
+def _checks(design: Design, corner: Corner) -> tuple[list[_Check], list[tuple[str, str, str]]]:
+    """The checks of a design and the limits it cannot check (part, quantity, missing key)."""
+    checks: list[_Check] = []
+    missing: list[tuple[str, str, str]] = []
+    spike = design.limits.v_spike
+
+    def blocking_note(part: str) -> Callable[[Budget, int], str]:
+        def note(b: Budget, k: int) -> str:
+            v = float(b.stress(part, "v_pk").ravel()[k])
+            return (f"peak blocking voltage {_q(v, 'voltage')} + limits.v_spike "
+                    f"{_q(spike, 'voltage')}")
+        return note
+
+    for part, dev in (("switch", design.switch), ("rectifier", design.rectifier)):
+        kind = "diode" if isinstance(dev, Diode) else "mosfet"
+        rated = dev.vr_rated if isinstance(dev, Diode) else dev.vds_rated
+        checks.append(_Check(
+            part=part, quantity="t_j", unit="degC", kind=kind,
+            measure=lambda b, p=part, lim=dev.tj_max: (b.temperature(p), _full(b, lim)),
+        ))
+        checks.append(_Check(
+            part=part, quantity="v_pk", unit="V", kind=kind,
+            measure=lambda b, p=part, lim=rated: (b.stress(p, "v_pk") + spike, _full(b, lim)),
+            note=blocking_note(part),
+        ))
+
+    ind = design.inductor
+    checks.append(_Check(
+        part="inductor", quantity="t_hot", unit="degC", kind="inductor",
+        measure=lambda b: (b.temperature("inductor"), _full(b, ind.t_max)),
+    ))
+    if ind.i_sat is not None:
+        pts_t, pts_i = ind.i_sat.t, ind.i_sat.pick(corner)
+
+        def i_sat(b: Budget) -> np.ndarray:
+            return i_sat_at(b.temperature("inductor"), points_t=pts_t, points_i=pts_i)
+
+        def sat_note(b: Budget, k: int, what: str) -> str:
+            t = float(b.temperature("inductor").ravel()[k])
+            extra = ", extrapolated above the hottest point" if t > pts_t[-1] else ""
+            return (f"{what} against i_sat at the inductor's {_q(t, 'temperature')} "
+                    f"({corner}-case i_sat points, interpolated{extra})")
+
+        checks.append(_Check(
+            part="inductor", quantity="i_pk", unit="A", kind="inductor",
+            measure=lambda b: (b.stress("inductor", "i_pk"), i_sat(b)),
+            note=lambda b, k: sat_note(b, k, "peak current per part"),
+        ))
+        if design.operating.i_limit is not None:
+            i_lim = design.operating.i_limit / ind.count
+            checks.append(_Check(
+                part="inductor", quantity="i_limit", unit="A", kind="inductor",
+                measure=lambda b: (_full(b, i_lim), i_sat(b)),
+                note=lambda b, k: sat_note(
+                    b, k, f"operating.i_limit {_q(i_lim, 'current')} per part (reached in a "
+                    "transient)"),
+            ))
+        else:
+            missing.append(("inductor", "i_limit", "operating.i_limit"))
+    else:
+        missing.append(("inductor", "i_pk", "inductor.i_sat"))
+    if ind.core is not None and ind.core.b_sat is not None:
+        b_sat = ind.core.b_sat
+        checks.append(_Check(
+            part="inductor", quantity="b_pk", unit="T", kind="inductor",
+            measure=lambda b: (b.stress("inductor", "b_pk"), _full(b, b_sat)),
+        ))
+    else:
+        missing.append(("inductor", "b_pk", "inductor.core.b_sat"))
+
+    for cap in design.capacitors:
+        kind = "electrolytic" if cap.life is not None else "capacitor"
+        out = cap.position == "output"
+
+        def v_cap(b: Budget, name=cap.name, out=out) -> np.ndarray:
+            v = b.stress(name, "v_pk")
+            return v + 0.5 * b.vout_pp if out else v
+
+        checks.append(_Check(
+            part=cap.name, quantity="v_pk", unit="V", kind=kind,
+            measure=lambda b, f=v_cap, lim=cap.v_rated: (f(b), _full(b, lim)),
+            note=lambda b, k, out=out: (
+                ("bank voltage plus half the output ripple" if out else "DC bank voltage")
+                + "; v_spike not added (the ringing is at the switch node)"),
+        ))
+        rr = cap.i_ripple_rated
+        if rr is not None:
+            at_f = _q(rr.at_f, "frequency") if rr.at_f is not None else "an unstated frequency"
+            at_t = _q(rr.at, "temperature") if rr.at is not None else "an unstated temperature"
+            text = (f"per part; rated {_q(rr.i, 'current')} at {at_f}, {at_t}; frequency and "
+                    "temperature multipliers are vendor-specific and not applied")
+            checks.append(_Check(
+                part=cap.name, quantity="i_rms", unit="A", kind=kind,
+                measure=lambda b, name=cap.name, lim=rr.i: (b.stress(name, "i_rms"),
+                                                            _full(b, lim)),
+                note=lambda b, k, text=text: text,
+            ))
+        else:
+            missing.append((cap.name, "i_rms", "capacitor.i_ripple_rated"))
+        checks.append(_Check(
+            part=cap.name, quantity="t_hot", unit="degC", kind=kind,
+            measure=lambda b, name=cap.name, lim=cap.t_max: (b.temperature(name),
+                                                             _full(b, lim)),
+        ))
+        life = cap.life
+        if life is not None and life.required is not None:
+
+            def life_note(b: Budget, k: int, name=cap.name, life=life) -> str:
+                t = float(b.temperature(name).ravel()[k])
+                text = (f"L = L0·2^((T0 − T)/10 K) at the hot spot {_q(t, 'temperature')}; "
+                        f"rated {_q(life.rated, 'duration')} at {_q(life.at, 'temperature')}")
+                if t > life.at:
+                    text += "; above the rated temperature, where the rule does not hold"
+                return text
+
+            checks.append(_Check(
+                part=cap.name, quantity="life", unit="h", kind=None, lower_is_worse=True,
+                measure=lambda b, name=cap.name, life=life: (
+                    electrolytic_life_10k(b.temperature(name), rated=life.rated, at=life.at),
+                    _full(b, life.required)),
+                note=life_note,
+            ))
+        elif life is not None:
+            missing.append((cap.name, "life", "capacitor.life.required"))
+    return checks, missing
+
+
+LIFE_BASIS = ("10-kelvin rule, life.required as the limit (no derating margin on life) "
+              "— common practice")
+
+
+# --------------------------------------------------------------------------------------------
+# the envelope
+# --------------------------------------------------------------------------------------------
+
+
+def _envelope(design: Design) -> dict[str, np.ndarray]:
+    o = design.operating
+
+    def three(r) -> np.ndarray:
+        return np.unique([r.min, r.nom, r.max])
+
+    vin = np.linspace(o.vin.min, o.vin.max, VIN_POINTS) if o.vin.max > o.vin.min \
+        else np.array([o.vin.min])
+    return {
+        "vin": vin,
+        "vout": three(o.vout),
+        "load": o.iout_rated * np.asarray(LOAD_FRACTIONS),
+        "ambient": three(o.ambient),
+        "fsw": three(o.fsw),
+    }
+
+
+def _tolerance(design: Design, axes: dict[str, np.ndarray]) -> dict[str, float]:
+    tol = {a: REFINE_TOLERANCE * float(x.max() - x.min()) for a, x in axes.items()}
+    tol["load"] = REFINE_TOLERANCE * design.operating.iout_rated
+    return tol
+
+
+@dataclass(slots=True)
+class _Search:
+    """The state of one check's refinement."""
+
+    check: _Check
+    key: float
+    point: dict[str, float]
+    value: float
+    absolute: float
+    note: str
+    brackets: dict[str, tuple[float, float]]  # axes still refined: (low, high)
+
+
+def _evaluate(check: _Check, b: Budget) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    value, absolute = check.measure(b)
+    value = np.broadcast_to(value, b.shape).ravel()
+    absolute = np.broadcast_to(absolute, b.shape).ravel()
+    return value, absolute, _key(check, value, absolute).ravel()
+
+
+def _flat_coords(b: Budget) -> dict[str, np.ndarray]:
+    return {a: np.broadcast_to(b.coords[a], b.shape).ravel() for a in AXES}
+
+
+def _refine(design: Design, searches: list[_Search], axes: dict[str, np.ndarray],
+            tol: dict[str, float], corner: Corner, seen: list[Budget]) -> int:
+    """Zoom local grids around each check's worst point; one solve per round for all checks.
+
+    Returns the number of operating points solved.
+    """
+    solved = 0
+    for _ in range(REFINE_ROUNDS):
+        active = [s for s in searches if s.brackets]
+        if not active:
+            break
+        blocks, spans = [], []
+        for s in active:
+            names = list(s.brackets)
+            n = REFINE_POINTS.get(len(names), 4)
+            grids = [np.linspace(*s.brackets[a], n) for a in names]
+            mesh = [g.ravel() for g in np.meshgrid(*grids, indexing="ij")]
+            m = mesh[0].size
+            pts = {a: np.full(m, s.point[a]) for a in AXES}
+            for a, g in zip(names, mesh, strict=True):
+                pts[a] = g
+            blocks.append(pts)
+            spans.append(m)
+        flat = {a: np.concatenate([blk[a] for blk in blocks]) for a in AXES}
+        b = solve(design, corner=corner, **flat)
+        seen.append(b)
+        solved += flat["vin"].size
+        start = 0
+        for s, m in zip(active, spans, strict=True):
+            value, absolute, key = _evaluate(s.check, b)
+            sl = slice(start, start + m)
+            start += m
+            k_local = key[sl]
+            if np.any(np.isfinite(k_local)):
+                j = int(np.nanargmax(k_local))
+                if k_local[j] > s.key:
+                    k = sl.start + j
+                    s.key = float(k_local[j])
+                    s.value, s.absolute = float(value[k]), float(absolute[k])
+                    s.point = {a: float(flat[a][k]) for a in AXES}
+                    s.note = s.check.note(b, k) if s.check.note else ""
+            n = REFINE_POINTS.get(len(s.brackets), 4)
+            new = {}
+            for a, (lo, hi) in s.brackets.items():
+                step = (hi - lo) / (n - 1)
+                if step > tol[a]:
+                    x = s.point[a]
+                    new[a] = (max(x - step, axes[a].min()), min(x + step, axes[a].max()))
+            s.brackets = new
+    return solved
+
+
+def _status(check: _Check, worst: float, design_limit: float, absolute: float) -> Status:
+    if not np.isfinite(worst):
+        return "fail"
+    if check.lower_is_worse:
+        return "fail" if worst < absolute else "caution" if worst < design_limit else "ok"
+    return "fail" if worst > absolute else "caution" if worst > design_limit else "ok"
+
+
+def _where_text(point: dict[str, float], axes: tuple[str, ...]) -> str:
+    dims = {"vin": "voltage", "vout": "voltage", "load": "current", "ambient": "temperature",
+            "fsw": "frequency"}
+    return ", ".join(f"{a} {_q(point[a], dims[a])}" for a in axes)
+
+
+def _stage_rows(design: Design, budgets: list[Budget], grid: Budget, corner: Corner,
+                varying: tuple[str, ...]) -> list[LimitRow]:
+    """Rows for thermal runaway or non-convergence (fail) and infeasible points (caution)."""
+    rows: list[LimitRow] = []
+    coords = [_flat_coords(b) for b in budgets]
+    n_grid = grid.output_power.size
+
+    def gather(flag_names: tuple[str, ...]):
+        pts, reasons = [], []
+        for b, c in zip(budgets, coords, strict=True):
+            mask = np.zeros(b.shape, dtype=bool)
+            for f in flag_names:
+                mask |= b.flags[f]
+            mask = mask.ravel()
+            idx = np.flatnonzero(mask)
+            pts.extend({a: float(c[a][i]) for a in AXES} for i in idx)
+            reasons.extend(str(r) for r in b.reason.ravel()[idx])
+        return pts, reasons
+
+    def shown(point: dict[str, float]) -> dict[str, float]:
+        return {a: point[a] for a in AXES if a != "fsw" or "fsw" in varying}
+
+    def extent(pts: list[dict[str, float]]) -> str:
+        dims = {"vin": "voltage", "vout": "voltage", "load": "current",
+                "ambient": "temperature", "fsw": "frequency"}
+        parts = []
+        for a in varying:
+            lo, hi = min(p[a] for p in pts), max(p[a] for p in pts)
+            parts.append(f"{a} {_q(lo, dims[a])}" if lo == hi
+                         else f"{a} {_q(lo, dims[a])} to {_q(hi, dims[a])}")
+        return ", ".join(parts)
+
+    def grid_count(flag_names: tuple[str, ...]) -> int:
+        return int(sum(grid.flags[f].sum() for f in flag_names))
+
+    nan = float("nan")
+    # thermal runaway or no convergence: the onset (lowest load) located in load
+    th_pts, th_reasons = gather(("runaway", "not_converged"))
+    if th_pts:
+        j = min(range(len(th_pts)), key=lambda i: (th_pts[i]["load"], th_pts[i]["vin"]))
+        onset, reason = dict(th_pts[j]), th_reasons[j]
+        located = ""
+        loads = np.asarray(LOAD_FRACTIONS) * design.operating.iout_rated
+        below = loads[loads < onset["load"] - 1e-12]
+        if below.size:
+            lo = float(below.max())
+            scan = np.linspace(lo, onset["load"], ONSET_POINTS)
+            pts = {a: np.full(scan.size, onset[a]) for a in AXES}
+            pts["load"] = scan
+            b = solve(design, corner=corner, **pts)
+            bad = (b.flags["runaway"] | b.flags["not_converged"]).ravel()
+            if bad.any() and not bad.all():
+                k = int(np.argmax(bad))
+                onset["load"] = float(scan[k])
+                reason = str(b.reason.ravel()[k])
+                located = (f"; onset located in load to within "
+                           f"{_q(float(scan[1] - scan[0]), 'current')}")
+        rows.append(LimitRow(
+            part="stage", quantity="thermal", unit="", worst=nan, where=shown(onset),
+            design_limit=nan, absolute_limit=nan, margin=nan, margin_unit="", status="fail",
+            basis=f"{reason} — the coupled solve has no steady state here",
+            note=(f"runaway or not converged at {grid_count(('runaway', 'not_converged'))} of "
+                  f"{n_grid} grid points ({extent(th_pts)}), from the lowest load shown"
+                  f"{located}; the other rows cover only the points that solved"),
+        ))
+    # infeasible points, one row per reason
+    inf_pts, inf_reasons = gather(("infeasible",))
+    for reason in dict.fromkeys(inf_reasons):
+        pts = [p for p, r in zip(inf_pts, inf_reasons, strict=True) if r == reason]
+        rows.append(LimitRow(
+            part="stage", quantity="regulation", unit="", worst=nan, where=shown(pts[0]),
+            design_limit=nan, absolute_limit=nan, margin=nan, margin_unit="",
+            status="caution",
+            basis=f"{reason} — the stage cannot regulate there",
+            note=f"{len(pts)} points ({extent(pts)}); not refined",
+        ))
+    return rows
+
+
+def check_limits(design: Design, *, derating: str | None = None,
+                 corner: Corner = "worst") -> LimitReport:
+    """Check every part's limits over the operating envelope.
+
+    Parameters
+    ----------
+    design : Design
+        A design from :func:`lossbudget.load_design`.
+    derating : {"none", "moderate", "conservative", "custom"}, optional
+        Derating profile; the design's ``limits.derating`` when omitted. The design's own
+        ``[limits.margins]`` rows override the profile's rows they name ("custom": the
+        moderate profile for the rows not named).
+    corner : {"worst", "typ"}
+        Part values; the check is meant for ``"worst"``.
+
+    Returns
+    -------
+    LimitReport
+        A row per part and limit, the worst status, the cautions and the grid described.
+
+    Notes
+    -----
+    The envelope grid: 7 input voltages from min to max × the output voltage's min, nom, max
+    × 12 loads (2 % to 100 % of rated) × the ambient's min, nom, max (× the switching
+    frequency's min, nom, max where it has a range), solved in one vectorised sweep. Where a
+    check's worst point lies inside an axis, a local grid around it is zoomed until its spacing
+    is within 1 % of the axis span (load: 1 % of the rated current); a worst point at an axis
+    edge stays at the edge.
+    """
+    if corner not in ("typ", "worst"):
+        raise ValueError(f"corner: expected 'typ' or 'worst', got {corner!r}")
+    label, margins = _margins_for(design, derating)
+    checks, missing = _checks(design, corner)
+    axes = _envelope(design)
+    tol = _tolerance(design, axes)
+    grid = sweep(design, corner=corner, **axes)
+    coords = _flat_coords(grid)
+    varying = tuple(a for a in AXES if axes[a].size > 1)
+
+    searches: list[_Search] = []
+    unevaluated: list[_Check] = []
+    for check in checks:
+        value, absolute, key = _evaluate(check, grid)
+        if not np.any(np.isfinite(key)):
+            unevaluated.append(check)
+            continue
+        k = int(np.nanargmax(key))
+        idx = np.unravel_index(k, grid.shape)
+        brackets = {}
+        for dim, a in enumerate(AXES):
+            x, i = axes[a], int(idx[dim])
+            if x.size >= 3 and 0 < i < x.size - 1:
+                brackets[a] = (float(x[i - 1]), float(x[i + 1]))
+        searches.append(_Search(
+            check=check, key=float(key[k]), point={a: float(coords[a][k]) for a in AXES},
+            value=float(value[k]), absolute=float(absolute[k]),
+            note=check.note(grid, k) if check.note else "", brackets=brackets,
+        ))
+    budgets: list[Budget] = [grid]
+    refined = _refine(design, searches, axes, tol, corner, budgets)
+
+    rows: list[LimitRow] = []
+    for s in searches:
+        c = s.check
+        if c.kind is None:
+            design_limit, basis = s.absolute, LIFE_BASIS
+        else:
+            m = margins[c.kind, c.quantity]
+            design_limit, basis = float(m.design_limit(s.absolute)), m.basis
+        if c.unit == "degC":
+            margin, margin_unit = design_limit - s.value, "K"
+        elif c.lower_is_worse:
+            margin, margin_unit = (s.value - design_limit) / design_limit, "fraction"
+        else:
+            margin, margin_unit = (design_limit - s.value) / design_limit, "fraction"
+        rows.append(LimitRow(
+            part=c.part, quantity=c.quantity, unit=c.unit, worst=s.value,
+            where={a: s.point[a] for a in AXES if a != "fsw" or "fsw" in varying},
+            design_limit=design_limit, absolute_limit=s.absolute, margin=float(margin),
+            margin_unit=margin_unit, status=_status(c, s.value, design_limit, s.absolute),
+            basis=basis, note=s.note,
+        ))
+    nan = float("nan")
+    for c in unevaluated:
+        rows.append(LimitRow(
+            part=c.part, quantity=c.quantity, unit=c.unit, worst=nan, where={},
+            design_limit=nan, absolute_limit=nan, margin=nan, margin_unit="", status="fail",
+            basis="not evaluated: no point of the envelope solved", note="",
+        ))
+    rows.extend(_stage_rows(design, budgets, grid, corner, varying))
+    worst = max((r.status for r in rows), key=STATUS_ORDER.index, default="ok")
+
+    dims = {"vin": "voltage", "vout": "voltage", "load": "current", "ambient": "temperature",
+            "fsw": "frequency"}
+    sizes = " × ".join(f"{axes[a].size} {a}" for a in AXES)
+    ranges = "; ".join(
+        f"{a} {_q(float(axes[a].min()), dims[a])}"
+        + (f" to {_q(float(axes[a].max()), dims[a])}" if axes[a].size > 1 else "")
+        for a in AXES)
+    tol_dims = {**dims, "ambient": "temperature_difference"}
+    tol_text = ", ".join(f"{a} {_q(tol[a], tol_dims[a])}" for a in varying)
+    text = (f"envelope grid {sizes} = {grid.output_power.size} points ({ranges}; load "
+            f"{LOAD_FRACTIONS[0] * 100:g} % to 100 % of rated) at the {corner}-case part values; "
+            f"where a worst point lies inside an axis, a local grid around it is zoomed until "
+            f"its spacing is within {REFINE_TOLERANCE * 100:g} % of the axis span (load: of the "
+            f"rated current): {tol_text}; a worst point at an axis edge stays at the edge "
+            f"({refined} refinement points solved)")
+    return LimitReport(
+        design_name=design.name, derating=label, corner=corner, rows=tuple(rows),
+        worst_status=worst, cautions=CAUTIONS, grid=text, not_checked=tuple(missing),
+        envelope={a: tuple(float(v) for v in axes[a]) for a in AXES},
+    )
+
+
+__all__ = ["LimitReport", "LimitRow", "Margin", "check_limits", "derating_profiles",
+           "electrolytic_life_10k", "i_sat_at"]
