@@ -164,3 +164,7 @@ def validate(design: Path) -> None:
 from lossbudget.commands.point import point  # noqa: E402
 
 main.add_command(point)
+
+from lossbudget.commands.checking import check  # noqa: E402
+
+main.add_command(check)
