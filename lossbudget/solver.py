@@ -170,6 +170,11 @@ def _context(design: Design, corner: Corner) -> _Context:
     notes: list[str] = []
     if w is not None and not w.litz:
         layers = w.layers or 1
+        if w.layers == 1:
+            notes.append(
+                "copper_ac: Dowell's 1-D layer model is poor for a single-layer winding "
+                "(toroid, drum core) and near an air gap; treat the AC copper loss as indicative"
+            )
         if w.rac_rdc is not None:
             delta1_ref = float(mag.dowell_delta_from_factor(w.rac_rdc, layers=layers))
             notes.append(

@@ -130,6 +130,10 @@ def point_report(budget) -> str:
         lines.extend(f"    {c} {m}: {key}" for c, m, key in missing)
     if budget.flags["extrapolated"].ravel()[0]:
         lines.append("  note: a temperature law or the core-loss fit is extrapolated here")
+    notes = budget.provenance.get("notes", [])
+    if notes:
+        lines.append("")
+        lines.extend(f"  note: {n}" for n in notes)
     warnings = budget.provenance.get("warnings", [])
     if warnings:
         lines.append("")
