@@ -168,3 +168,8 @@ main.add_command(point)
 from lossbudget.commands.checking import check  # noqa: E402
 
 main.add_command(check)
+
+from lossbudget.commands.mapping import demo_command, map_command  # noqa: E402
+
+main.add_command(map_command)
+main.add_command(demo_command)

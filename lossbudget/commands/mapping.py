@@ -1,0 +1,387 @@
+"""``lossbudget map`` and ``lossbudget demo``: the efficiency map, its plots and tables.
+
+``map`` sweeps a design over input voltage × load, writes the four plots, the point table
+and (up to ~1e5 points, or when asked) the loss table, and prints a one-screen summary with
+the weighted efficiencies. ``demo`` does the whole job on the embedded demo design: the
+breakdown at the nominal point, the map, and the limit check and workbook.
+"""
+
+from __future__ import annotations
+
+import importlib.resources
+import math
+import os
+import sys
+import textwrap
+from dataclasses import dataclass
+from pathlib import Path
+
+import click
+import numpy as np
+
+from lossbudget.cautions import CAUTIONS
+from lossbudget.cli import BadInput, design_argument, read_design, reports_bad_input
+from lossbudget.commands.point import point_report, quantity
+from lossbudget.design import Design, load_design
+from lossbudget.errors import DesignError
+from lossbudget.output.tables import aligned_table
+from lossbudget.units import format_quantity
+
+LONG_TABLE_POINTS = 100_000
+PROGRESS_POINTS = 20_000
+SUMMARY_ROWS = 8
+FILE_NAMES = {
+    "efficiency map": "efficiency_map",
+    "efficiency curves": "efficiency_curves",
+    "loss breakdown": "loss_breakdown",
+    "temperatures": "temperatures",
+}
+
+
+# --------------------------------------------------------------------------------------------
+# options → axes
+# --------------------------------------------------------------------------------------------
+
+
+def parse_range(text: str, dimension: str, option: str) -> tuple[float, float, int]:
+    """Parse ``START:STOP:COUNT`` (bounds may carry units: "0.2 A:4 A:40").
+
+    Raises :class:`~lossbudget.cli.BadInput` naming the option on any malformed part.
+    """
+    parts = text.split(":")
+    if len(parts) != 3:
+        raise BadInput(f'{option}: expected START:STOP:COUNT (e.g. "18 V:32 V:15"), '
+                       f'got "{text}"')
+    start = quantity(parts[0].strip(), dimension, f"{option} start")
+    stop = quantity(parts[1].strip(), dimension, f"{option} stop")
+    try:
+        count = int(parts[2].strip())
+    except ValueError:
+        raise BadInput(f'{option}: expected an integer point count after the second ":", '
+                       f'got "{parts[2].strip()}"') from None
+    return float(start), float(stop), count
+
+
+def _percent(text: str, option: str) -> tuple[float, float, int]:
+    """A percent range: bare numbers are percent ("5:100:40"), "5 %" is read as 5 percent."""
+    parts = text.split(":")
+    if len(parts) != 3:
+        raise BadInput(f'{option}: expected START:STOP:COUNT in percent of rated (e.g. '
+                       f'"5:100:40"), got "{text}"')
+    bounds = []
+    for part, name in zip(parts[:2], ("start", "stop"), strict=True):
+        value = quantity(part.strip(), "fraction", f"{option} {name}")
+        bounds.append(value * 100.0 if "%" in part else value)
+    _, _, count = parse_range(f"0:0:{parts[2]}", "fraction", option)
+    return bounds[0], bounds[1], count
+
+
+def vin_axis(design: Design, text: str | None) -> np.ndarray:
+    """The input-voltage axis: from ``--vin`` or the design's range with 15 points. [V]"""
+    op = design.operating
+    if text is None:
+        if op.vin.min == op.vin.max:
+            return np.array([op.vin.min])
+        return np.linspace(op.vin.min, op.vin.max, 15)
+    start, stop, count = parse_range(text, "voltage", "--vin")
+    if count < 1 or (count == 1 and start != stop):
+        raise BadInput(f'--vin: expected 2 or more points between two voltages (1 point only '
+                       f'for START = STOP), got "{text}"')
+    if start <= 0 or stop <= 0:
+        raise BadInput(f'--vin: expected input voltages above 0 V, got "{text}"')
+    return np.linspace(start, stop, count)
+
+
+def load_points(design: Design, *, load: str | None, load_pct: str | None,
+                log_load: bool) -> np.ndarray:
+    """The load axis from ``--load`` or ``--load-pct`` (default 5 % to 100 %, 40 points). [A]"""
+    from lossbudget.sweep import load_axis
+
+    if load is not None and load_pct is not None:
+        raise BadInput("give --load or --load-pct, not both")
+    if load is not None:
+        option, (start, stop, count), percent = "--load", parse_range(load, "current",
+                                                                       "--load"), False
+    else:
+        option = "--load-pct"
+        start, stop, count = (5.0, 100.0, 40) if load_pct is None else _percent(load_pct,
+                                                                                 option)
+        percent = True
+    try:
+        return load_axis(design, start=start, stop=stop, count=count, log=log_load,
+                         percent=percent)
+    except DesignError as exc:
+        raise BadInput(f"{option}: " + "; ".join(exc.problems)) from None
+
+
+# --------------------------------------------------------------------------------------------
+# the job
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MapRun:
+    """What a map run produced: the budget, its summary, the weighted figures, the files."""
+
+    budget: object
+    summary: object
+    weighted: tuple
+    files: tuple[tuple[str, Path], ...]
+    notes: tuple[str, ...]
+
+
+def _progress(total_points: int):
+    """A simple progress line on stderr for long sweeps (None for short ones)."""
+    if total_points < PROGRESS_POINTS:
+        return None
+    err = click.get_text_stream("stderr")
+    tty = err.isatty()
+
+    def report(done: int, total: int) -> None:
+        text = f"sweeping: {done}/{total} input-voltage rows ({done * 100 // total} %)"
+        if tty:
+            err.write("\r" + text + ("\n" if done == total else ""))
+        else:
+            err.write(text + "\n")
+        err.flush()
+
+    return report
+
+
+def _write_csv(frame, path: Path) -> Path:
+    """Write a table as CSV atomically (a temporary file beside it, then a rename)."""
+    tmp = path.with_name(f".{path.name}.partial")
+    try:
+        frame.to_csv(tmp, index=False)
+        os.replace(tmp, path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+    return path
+
+
+def run_map(design: Design, *, vin: np.ndarray, load: np.ndarray, ambient: float | None,
+            out: Path, fmt: str, long_table: bool) -> MapRun:
+    """Sweep, plot, tabulate and summarise a map into ``out``."""
+    from lossbudget.output import plots
+    from lossbudget.sweep import map_summary, sweep_rows, weighted_efficiency
+
+    op = design.operating
+    out.mkdir(parents=True, exist_ok=True)
+    if not os.access(out, os.W_OK | os.X_OK):
+        raise PermissionError(13, "cannot write: the folder is not writable", str(out))
+    budget = sweep_rows(design, vin=vin, load=load, ambient=ambient,
+                        progress=_progress(vin.size * load.size))
+    summary = map_summary(budget, rated_load=op.iout_rated)
+    weighted = weighted_efficiency(design, ambient=ambient)
+    files: list[tuple[str, Path]] = []
+    notes: list[str] = []
+    rated = op.iout_rated
+    target = {what: out / f"{stem}.{fmt}" for what, stem in FILE_NAMES.items()}
+    if vin.size >= 2 and load.size >= 2:
+        files.append(("efficiency map",
+                      plots.efficiency_map(budget, target["efficiency map"], rated_load=rated)))
+    else:
+        notes.append("efficiency map skipped: it needs 2 or more input voltages and loads")
+    files.append(("efficiency curves", plots.efficiency_curves(
+        budget, target["efficiency curves"],
+        vins=[op.vin.min, op.vin.nom, op.vin.max] if vin.size > 3 else None, rated_load=rated)))
+    files.append(("loss breakdown", plots.loss_breakdown(
+        budget, target["loss breakdown"], vin=op.vin.nom, rated_load=rated)))
+    files.append(("temperatures", plots.temperature_curves(
+        budget, target["temperatures"], vin=op.vin.nom, rated_load=rated)))
+    files.append(("point table", _write_csv(budget.point_table(), out / "points.csv")))
+    if summary.points <= LONG_TABLE_POINTS or long_table:
+        files.append(("loss table", _write_csv(budget.loss_table(), out / "losses.csv")))
+    else:
+        notes.append(f"losses.csv skipped: {summary.points:,} points is above "
+                     f"{LONG_TABLE_POINTS:,} (add --long-table to write it)")
+    return MapRun(budget=budget, summary=summary, weighted=weighted, files=tuple(files),
+                  notes=tuple(notes))
+
+
+# --------------------------------------------------------------------------------------------
+# the text
+# --------------------------------------------------------------------------------------------
+
+
+def _pct(x: float) -> str:
+    return "n/a" if not math.isfinite(x) else f"{x * 100:.2f} %"
+
+
+def _v(x: float) -> str:
+    return format_quantity(x, "voltage")
+
+
+def _a(x: float) -> str:
+    return format_quantity(x, "current")
+
+
+def map_report(design: Design, run: MapRun, *, cautions: bool = True,
+               files: bool = True) -> str:
+    """The one-screen summary of a map run."""
+    s = run.summary
+    b = run.budget
+    rated = design.operating.iout_rated
+    vin = np.asarray(b.coords["vin"])[:, 0]
+    load = np.asarray(b.coords["load"])[0, :]
+    amb = float(np.asarray(b.coords["ambient"]).ravel()[0])
+    lines = [
+        f"{design.name}: efficiency map, {vin.size} × {load.size} points "
+        f"(vin {_v(vin.min())} to {_v(vin.max())}, load {_a(load.min())} to {_a(load.max())}), "
+        f"ambient {format_quantity(amb, 'temperature')}, {b.provenance['corner']} part values",
+    ]
+    if math.isfinite(s.peak_efficiency):
+        lines.append(f"  peak efficiency {_pct(s.peak_efficiency)} at vin {_v(s.peak_vin)}, "
+                     f"load {_a(s.peak_load)} ({s.peak_load / rated * 100:.0f} % of rated)")
+    else:
+        lines.append("  no point of the map could be solved")
+    flagged = f"{s.flagged_points} flagged"
+    if s.flagged_reasons:
+        flagged += " (" + "; ".join(f"{n}: {r}" for r, n in s.flagged_reasons) + ")"
+    lines.append(f"  DCM at {s.dcm_points} of {s.points} points; {flagged}")
+    lines.append("")
+    at = ("at rated load" if math.isclose(s.rated_load, rated, rel_tol=1e-9)
+          else f"at the map's load nearest rated ({_a(s.rated_load)}; rated {_a(rated)})")
+    idx = np.unique(np.round(np.linspace(0, s.rated_vin.size - 1,
+                                         min(SUMMARY_ROWS, s.rated_vin.size))).astype(int))
+    shown = "" if idx.size == s.rated_vin.size else f", {idx.size} of {s.rated_vin.size} rows"
+    lines.append(f"  efficiency {at} ({_a(s.rated_load)}) over the input range{shown}:")
+    lines.append(aligned_table(
+        ("vin", "efficiency"),
+        [(_v(s.rated_vin[i]), _pct(s.rated_efficiency[i])) for i in idx],
+        right=(True, True), indent="    "))
+    lines.append("")
+    lines.append("  weighted efficiency (each load point solved, not interpolated; "
+                 f"ambient {format_quantity(amb, 'temperature')}):")
+    vins = list(dict.fromkeys(f.vin for f in run.weighted))
+    names = list(dict.fromkeys(f.name for f in run.weighted))
+    by = {(f.name, f.vin): f for f in run.weighted}
+    rows = [[n, *(_pct(by[n, v].value) for v in vins)] for n in names]
+    lines.append(aligned_table(("figure", *(f"vin {_v(v)}" for v in vins)), rows,
+                               right=(False, *([True] * len(vins))), indent="    "))
+    for f in run.weighted:
+        if f.reason:
+            lines.append(f"    n/a {f.name} at vin {_v(f.vin)}: {f.reason}")
+    sources = {f.name: f.source for f in run.weighted}
+    lines.append("    sources:")
+    lines.extend(_wrap(f"{n}: {src}", "      ") for n, src in sources.items())
+    if files:
+        lines.append("")
+        lines.append("  files:")
+        lines.append(aligned_table(("what", "file"), [(w, str(p)) for w, p in run.files],
+                                   indent="    "))
+    lines.extend(f"  note: {n}" for n in run.notes)
+    if cautions:
+        lines.append("")
+        lines.extend(_wrap(f"caution: {text}", "  ") for text in CAUTIONS)
+    return "\n".join(lines)
+
+
+def _wrap(text: str, indent: str) -> str:
+    return textwrap.fill(text, width=96, initial_indent=indent, subsequent_indent=indent + "  ")
+
+
+# --------------------------------------------------------------------------------------------
+# the commands
+# --------------------------------------------------------------------------------------------
+
+
+@click.command("map")
+@design_argument
+@click.option("--vin", "vin_range", metavar="START:STOP:COUNT",
+              help='Input voltages, e.g. 18:32:15 or "18 V:32 V:15" [V]; default the '
+                   "design's vin min to max, 15 points.")
+@click.option("--load", "load_range", metavar="START:STOP:COUNT",
+              help='Output currents, e.g. 0.2:4:40 or "0.2 A:4 A:40" [A].')
+@click.option("--load-pct", "load_pct_range", metavar="START:STOP:COUNT",
+              help="Output currents in percent of rated, e.g. 5:100:40 [%]; the default.")
+@click.option("--log-load", is_flag=True, help="Space the loads logarithmically.")
+@click.option("--ambient", help='Ambient temperature, e.g. "40 degC" [degC or K]; default '
+                                "the nominal.")
+@click.option("--out", type=click.Path(file_okay=False, path_type=Path),
+              default=Path("lossbudget-map"), show_default=True,
+              help="Folder for the plots and tables (created if missing).")
+@click.option("--format", "fmt", type=click.Choice(["png", "svg", "pdf"]), default="png",
+              show_default=True, help="Plot file format.")
+@click.option("--long-table", is_flag=True,
+              help=f"Write losses.csv even above {LONG_TABLE_POINTS:,} points.")
+@reports_bad_input
+def map_command(design: Path, vin_range, load_range, load_pct_range, log_load, ambient, out,
+                fmt, long_table) -> None:
+    """Efficiency map over input voltage × load: four plots, the point and loss tables
+    (CSV), and a summary with the peak, the rated-load efficiency and weighted figures."""
+    d = read_design(design)
+    vin = vin_axis(d, vin_range)
+    load = load_points(d, load=load_range, load_pct=load_pct_range, log_load=log_load)
+    amb = quantity(ambient, "temperature", "--ambient")
+    run = run_map(d, vin=vin, load=load, ambient=amb, out=out, fmt=fmt, long_table=long_table)
+    click.echo(map_report(d, run))
+
+
+_AXIS_DIMENSIONS = {"vin": "voltage", "vout": "voltage", "load": "current",
+                    "ambient": "temperature", "fsw": "frequency"}
+
+
+def _limit_table(report) -> str:
+    rows = []
+    for r in report.rows:
+        where = ", ".join(f"{k} {format_quantity(v, _AXIS_DIMENSIONS.get(k, 'number'), digits=3)}"
+                          for k, v in r.where.items())
+        margin = (f"{r.margin * 100:.1f} %" if r.margin_unit == "fraction"
+                  else f"{r.margin:.3g} {r.margin_unit}")
+        rows.append((r.part, r.quantity, f"{r.worst:.4g} {r.unit}", where,
+                     f"{r.design_limit:.4g}", f"{r.absolute_limit:.4g}", margin, r.status))
+    return aligned_table(("part", "limit", "worst", "where", "design limit", "absolute",
+                          "margin", "status"), rows, indent="  ")
+
+
+@click.command("demo")
+@click.option("--out", type=click.Path(file_okay=False, path_type=Path),
+              default=Path("lossbudget-demo"), show_default=True,
+              help="Folder for the plots, tables and workbook (created if missing).")
+@reports_bad_input
+def demo_command(out: Path) -> None:
+    """The whole job on the embedded demo design (a warehouse cart's motor-bus boost):
+    the breakdown at the nominal point, the map with its plots and tables, the limit check
+    and the workbook."""
+    from lossbudget.solver import solve
+
+    source = importlib.resources.files("lossbudget") / "data" / "demo.toml"
+    with importlib.resources.as_file(source) as path:
+        d = load_design(path)
+    op = d.operating
+    click.echo("== nominal point (vin nominal, rated load, nominal ambient) ==")
+    click.echo(point_report(solve(d, vin=op.vin.nom, load_fraction=1.0)))
+    click.echo("")
+    click.echo("== efficiency map ==")
+    run = run_map(d, vin=vin_axis(d, None), load=load_points(d, load=None, load_pct=None,
+                                                              log_load=False),
+                  ambient=None, out=out, fmt="png", long_table=False)
+    click.echo(map_report(d, run, cautions=False, files=False))
+    files = list(run.files)
+    report = None
+    click.echo("")
+    try:
+        from lossbudget.limits import check_limits
+    except ImportError:
+        click.echo("note: limit check skipped (lossbudget.limits is not available)")
+    else:
+        report = check_limits(d)
+        click.echo(f"== limit check ({report.corner} part values, derating "
+                   f"{report.derating}): worst status {report.worst_status} ==")
+        click.echo(_limit_table(report))
+    try:
+        from lossbudget.output.workbook import write_workbook
+    except ImportError:
+        click.echo("note: workbook skipped (lossbudget.output.workbook is not available)")
+    else:
+        files.append(("workbook", write_workbook(out / "budget.xlsx", budget=run.budget,
+                                                 report=report, weighted=run.weighted,
+                                                 design=d)))
+    click.echo("")
+    click.echo("files:")
+    click.echo(aligned_table(("what", "file"), [(w, str(p)) for w, p in files], indent="  "))
+    click.echo("")
+    click.echo("\n".join(_wrap(f"caution: {text}", "") for text in CAUTIONS))
+    sys.stdout.flush()
