@@ -72,13 +72,14 @@ def load_axis(design: Design, *, start, stop, count, log: bool = False,
     Returns
     -------
     ndarray
-        Output currents, ascending or as given. [A]
+        Output currents, ascending. [A]
 
     Raises
     ------
     DesignError
-        When the count is not a positive integer, a bound is negative or not finite, a
-        logarithmic axis touches zero, or one point is asked for between two different loads.
+        When the count is not a positive integer, a bound is negative or not finite, the
+        bounds descend, a logarithmic axis touches zero, or one point is asked for between
+        two different loads.
     """
     what = "load axis (percent of rated)" if percent else "load axis"
     problems = []
@@ -89,6 +90,9 @@ def load_axis(design: Design, *, start, stop, count, log: bool = False,
         problems.append(f"{what}: expected finite bounds, got {start!r}:{stop!r}")
     elif lo < 0 or hi < 0:
         problems.append(f"{what}: expected loads of 0 or more, got {start!r}:{stop!r}")
+    elif hi < lo:
+        problems.append(f"{what}: expected start <= stop (an ascending axis), "
+                        f"got {start!r}:{stop!r}")
     elif log and (lo <= 0 or hi <= 0):
         problems.append(f"{what}: expected bounds above 0 on a logarithmic axis, "
                         f"got {start!r}:{stop!r}")
