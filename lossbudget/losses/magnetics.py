@@ -54,11 +54,17 @@ _COPPER_T_ZERO = 234.45
 _DOWELL_SPLIT = 1.0
 _SERIES_TERMS = 9
 # delta*M(delta) - 1 = sum_{k>=1} 4k y^k/(4k+2)! / sum_{k>=0} 2 y^k/(4k+2)!, y = 16 delta^4
-_M_NUM = tuple(4.0 * k / factorial(4 * k + 2) for k in range(_SERIES_TERMS))
-_M_DEN = tuple(2.0 / factorial(4 * k + 2) for k in range(_SERIES_TERMS))
 # delta*D(delta) = 2 delta^4 sum_k z^k/(4k+3)! / sum_k z^k/(4k)!, z = delta^4
-_D_NUM = tuple(1.0 / factorial(4 * k + 3) for k in range(_SERIES_TERMS))
-_D_DEN = tuple(1.0 / factorial(4 * k) for k in range(_SERIES_TERMS))
+# The four series as rows of one matrix of coefficients of z^0 .. z^_SERIES_TERMS (16^k is a
+# power of two, so y^k = 16^k z^k is exact), summed for all points by one matrix product.
+_DOWELL_POLY = np.zeros((4, _SERIES_TERMS + 1))
+for _k in range(_SERIES_TERMS):
+    _DOWELL_POLY[0, _k] = 4.0 * _k / factorial(4 * _k + 2) * 16.0**_k
+    _DOWELL_POLY[1, _k] = 2.0 / factorial(4 * _k + 2) * 16.0**_k
+    _DOWELL_POLY[2, _k + 1] = 2.0 / factorial(4 * _k + 3)
+    _DOWELL_POLY[3, _k] = 1.0 / factorial(4 * _k)
+_DOWELL_POLY.setflags(write=False)
+del _k
 
 # Isolated wire: Kelvin functions overflow a double near q = 1000; above _KELVIN_LIMIT the
 # Hankel asymptotic series (truncation error below 1e-12 relative there) takes over.
@@ -68,14 +74,6 @@ _KELVIN_SMALL = 1.0e-4
 # Bisection on log(delta) in dowell_delta_from_factor.
 _BISECTION_STEPS = 80
 _DELTA_FLOOR = 1.0e-6
-
-
-def _series(coeffs: tuple[float, ...], x: np.ndarray) -> np.ndarray:
-    """Power series sum_k coeffs[k] x^k by Horner's rule."""
-    out = np.zeros_like(x)
-    for c in reversed(coeffs):
-        out = out * x + c
-    return out
 
 
 def copper_resistance_at(r_ref: ArrayLike, t: ArrayLike, *, t_ref: ArrayLike = 25.0) -> np.ndarray:
@@ -190,42 +188,74 @@ def skin_depth(f: ArrayLike, *, resistivity: ArrayLike, mu_r: ArrayLike = 1.0) -
     return np.where(ok, d, np.nan)
 
 
-def _dowell_excess(delta: np.ndarray, layers: np.ndarray) -> np.ndarray:
-    """Fr - 1 of Dowell's layer formula, free of cancellation and overflow.
+def _dowell_small(ds: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Delta*M - 1 and Delta*D for 0 <= Delta < 1 (1-D array), from the power series."""
+    z = ds * ds
+    z *= z
+    powers = np.empty((_SERIES_TERMS + 1, z.size))
+    powers[0] = 1.0
+    powers[1] = z
+    for k in range(2, _SERIES_TERMS + 1):
+        np.multiply(powers[k - 1], z, out=powers[k])
+    num_m, den_m, num_d, den_d = _DOWELL_POLY @ powers
+    return num_m / den_m, num_d / den_d
 
-    NaN where delta < 0 or layers < 1; infinite at delta = inf.
+
+def _dowell_large(de: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Delta*M - 1 and Delta*D for finite Delta >= 1 (1-D array), divided through by exp.
+
+    With e = exp(-Delta), T = tan(Delta) and U = tan(Delta/2), the sines and cosines of the
+    printed ratios are written through the tangent half-angle identities
+    (sin 2x = 2T/(1 + T^2), cos 2x = (1 - T^2)/(1 + T^2)) and the common 1 + T^2 (1 + U^2)
+    cancelled; no term is lost to overflow and none cancels beyond the printed form.
     """
-    delta = np.asarray(delta, dtype=float)
-    layers = np.asarray(layers, dtype=float)
-    valid = (delta >= 0) & (layers >= 1) & np.isfinite(layers)
-    m = np.where(valid, layers, 1.0)
-    p = (m * m - 1.0) / 3.0
-
-    # delta < 1: ratios of power series with positive terms.
-    ds = np.minimum(np.abs(delta), _DOWELL_SPLIT)
-    z = ds**4
-    y = 16.0 * z
-    m_small = y * _series(_M_NUM[1:], y) / _series(_M_DEN, y)
-    d_small = 2.0 * z * _series(_D_NUM, z) / _series(_D_DEN, z)
-
-    # delta >= 1: hyperbolic functions divided through by exp(delta) or exp(2 delta).
-    de = np.where(np.isfinite(delta), np.maximum(delta, _DOWELL_SPLIT), _DOWELL_SPLIT)
     with np.errstate(under="ignore"):  # exp(-delta) -> 0 is the intended limit
         e1 = np.exp(-de)
         e2 = e1 * e1
         e4 = e2 * e2
-    m_ratio = (1.0 - e4 + 2.0 * e2 * np.sin(2.0 * de)) / (1.0 + e4 - 2.0 * e2 * np.cos(2.0 * de))
-    d_ratio = 2.0 * (1.0 - e2 - 2.0 * e1 * np.sin(de)) / (1.0 + e2 + 2.0 * e1 * np.cos(de))
-    m_large = de * m_ratio - 1.0
-    d_large = de * d_ratio
+    t = np.tan(de)
+    t2 = t * t
+    u = np.tan(0.5 * de)
+    u2 = u * u
+    m_ratio = ((1.0 - e4) * (1.0 + t2) + 4.0 * e2 * t) / (
+        (1.0 + e4) * (1.0 + t2) - 2.0 * e2 * (1.0 - t2)
+    )
+    d_ratio = (2.0 * (1.0 - e2) * (1.0 + u2) - 8.0 * e1 * u) / (
+        (1.0 + e2) * (1.0 + u2) + 2.0 * e1 * (1.0 - u2)
+    )
+    return de * m_ratio - 1.0, de * d_ratio
 
-    small = np.abs(delta) < _DOWELL_SPLIT
-    m_part = np.where(small, m_small, m_large)
-    d_part = np.where(small, d_small, d_large)
-    with np.errstate(over="ignore"):
-        excess = m_part + p * d_part
-    excess = np.where(np.isposinf(delta), np.inf, excess)
-    return np.where(valid, excess, np.nan)
+
+def _dowell_excess(delta: np.ndarray, layers: np.ndarray) -> np.ndarray:
+    """Fr - 1 of Dowell's layer formula, free of cancellation and overflow.
+
+    NaN where delta < 0 or layers < 1; infinite at delta = inf. Each branch is evaluated on
+    its own points only.
+    """
+    delta, layers = np.broadcast_arrays(
+        np.asarray(delta, dtype=float), np.asarray(layers, dtype=float)
+    )
+    valid = (delta >= 0) & (layers >= 1) & np.isfinite(layers)
+    excess = np.full(delta.shape, np.nan)
+    excess[valid & np.isposinf(delta)] = np.inf
+    for branch, where in (
+        (_dowell_small, valid & (delta < _DOWELL_SPLIT)),
+        (_dowell_large, valid & (delta >= _DOWELL_SPLIT) & np.isfinite(delta)),
+    ):
+        if where.all():
+            d, m = delta.ravel(), layers.ravel()
+        elif where.any():
+            d, m = delta[where], layers[where]
+        else:
+            continue
+        m_part, d_part = branch(d)
+        with np.errstate(over="ignore"):
+            part = m_part + (m * m - 1.0) / 3.0 * d_part
+        if where.all():
+            excess = part.reshape(delta.shape)
+        else:
+            excess[where] = part
+    return excess
 
 
 def ac_resistance_factor_dowell(delta: ArrayLike, *, layers: ArrayLike) -> np.ndarray:
