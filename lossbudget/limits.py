@@ -332,6 +332,18 @@ class _Check:
     measure: Measure  # budget -> (value, absolute limit), arrays of the budget's shape
     lower_is_worse: bool = False
     note: Callable[[Budget, int], str] | None = None  # budget, flat index of the worst
+    tie: Callable[[Budget], np.ndarray] | None = None  # among equal worst values, the largest
+
+
+def _argworst(check: _Check, key: np.ndarray, b: Budget, part: slice = slice(None)) -> int:
+    """Flat index (within ``part``) of the worst point; ties go to the largest ``tie`` value."""
+    k = key[part]
+    j = int(np.nanargmax(k))
+    if check.tie is None:
+        return j
+    top = np.flatnonzero(k >= k[j] - 1e-12 * abs(k[j]))
+    second = np.broadcast_to(check.tie(b), b.shape).ravel()[part][top]
+    return int(top[np.nanargmax(second)]) if np.any(np.isfinite(second)) else j
 
 
 def _key(check: _Check, value: np.ndarray, absolute: np.ndarray) -> np.ndarray:
@@ -407,6 +419,7 @@ def _checks(design: Design, corner: Corner) -> tuple[list[_Check], list[tuple[st
             checks.append(_Check(
                 part="inductor", quantity="i_limit", unit="A", kind="inductor",
                 measure=lambda b: (_full(b, i_lim), i_sat(b)),
+                tie=lambda b: b.temperature("inductor"),
                 note=lambda b, k: sat_note(
                     b, k, f"operating.i_limit {_q(i_lim, 'current')} per part (reached in a "
                     "transient)"),
@@ -571,7 +584,7 @@ def _refine(design: Design, searches: list[_Search], axes: dict[str, np.ndarray]
             start += m
             k_local = key[sl]
             if np.any(np.isfinite(k_local)):
-                j = int(np.nanargmax(k_local))
+                j = _argworst(s.check, key, b, sl)
                 if k_local[j] > s.key:
                     k = sl.start + j
                     s.key = float(k_local[j])
@@ -607,12 +620,12 @@ def _stage_rows(design: Design, budgets: list[Budget], grid: Budget, corner: Cor
                 varying: tuple[str, ...]) -> list[LimitRow]:
     """Rows for thermal runaway or non-convergence (fail) and infeasible points (caution)."""
     rows: list[LimitRow] = []
-    coords = [_flat_coords(b) for b in budgets]
     n_grid = grid.output_power.size
 
     def gather(flag_names: tuple[str, ...]):
         pts, reasons = [], []
-        for b, c in zip(budgets, coords, strict=True):
+        for b in budgets:
+            c = _flat_coords(b)
             mask = np.zeros(b.shape, dtype=bool)
             for f in flag_names:
                 mask |= b.flags[f]
@@ -653,6 +666,8 @@ def _stage_rows(design: Design, budgets: list[Budget], grid: Budget, corner: Cor
             pts = {a: np.full(scan.size, onset[a]) for a in AXES}
             pts["load"] = scan
             b = solve(design, corner=corner, **pts)
+            budgets.append(b)
+            th_pts, _ = gather(("runaway", "not_converged"))
             bad = (b.flags["runaway"] | b.flags["not_converged"]).ravel()
             if bad.any() and not bad.all():
                 k = int(np.argmax(bad))
@@ -665,19 +680,23 @@ def _stage_rows(design: Design, budgets: list[Budget], grid: Budget, corner: Cor
             design_limit=nan, absolute_limit=nan, margin=nan, margin_unit="", status="fail",
             basis=f"{reason} — the coupled solve has no steady state here",
             note=(f"runaway or not converged at {grid_count(('runaway', 'not_converged'))} of "
-                  f"{n_grid} grid points ({extent(th_pts)}), from the lowest load shown"
-                  f"{located}; the other rows cover only the points that solved"),
+                  f"{n_grid} grid points, over {extent(th_pts)} among every point solved; "
+                  f"shown at the lowest load{located}; the other rows cover only the points "
+                  "that solved"),
         ))
     # infeasible points, one row per reason
     inf_pts, inf_reasons = gather(("infeasible",))
+    grid_reasons = grid.reason.ravel()[grid.flags["infeasible"].ravel()]
     for reason in dict.fromkeys(inf_reasons):
         pts = [p for p, r in zip(inf_pts, inf_reasons, strict=True) if r == reason]
+        count = int(np.sum(grid_reasons == reason))
         rows.append(LimitRow(
             part="stage", quantity="regulation", unit="", worst=nan, where=shown(pts[0]),
             design_limit=nan, absolute_limit=nan, margin=nan, margin_unit="",
             status="caution",
             basis=f"{reason} — the stage cannot regulate there",
-            note=f"{len(pts)} points ({extent(pts)}); not refined",
+            note=(f"at {count} of {n_grid} grid points, over {extent(pts)} among every point "
+                  "solved; the region's edge is not refined"),
         ))
     return rows
 
@@ -728,7 +747,7 @@ def check_limits(design: Design, *, derating: str | None = None,
         if not np.any(np.isfinite(key)):
             unevaluated.append(check)
             continue
-        k = int(np.nanargmax(key))
+        k = _argworst(check, key, grid)
         idx = np.unravel_index(k, grid.shape)
         brackets = {}
         for dim, a in enumerate(AXES):
