@@ -89,6 +89,8 @@ def vin_axis(design: Design, text: str | None) -> np.ndarray:
                        f'for START = STOP), got "{text}"')
     if start <= 0 or stop <= 0:
         raise BadInput(f'--vin: expected input voltages above 0 V, got "{text}"')
+    if stop < start:
+        raise BadInput(f'--vin: expected START <= STOP (an ascending axis), got "{text}"')
     return np.linspace(start, stop, count)
 
 
@@ -134,16 +136,14 @@ def _progress(total_points: int):
     """A simple progress line on stderr for long sweeps (None for short ones)."""
     if total_points < PROGRESS_POINTS:
         return None
-    err = click.get_text_stream("stderr")
-    tty = err.isatty()
+    tty = sys.stderr.isatty()
 
     def report(done: int, total: int) -> None:
         text = f"sweeping: {done}/{total} input-voltage rows ({done * 100 // total} %)"
         if tty:
-            err.write("\r" + text + ("\n" if done == total else ""))
+            click.echo("\r" + text, err=True, nl=done == total)
         else:
-            err.write(text + "\n")
-        err.flush()
+            click.echo(text, err=True)
 
     return report
 
@@ -384,4 +384,3 @@ def demo_command(out: Path) -> None:
     click.echo(aligned_table(("what", "file"), [(w, str(p)) for w, p in files], indent="  "))
     click.echo("")
     click.echo("\n".join(_wrap(f"caution: {text}", "") for text in CAUTIONS))
-    sys.stdout.flush()
