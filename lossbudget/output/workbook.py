@@ -280,9 +280,35 @@ def write_workbook(path: str | os.PathLike, *, budget: Budget, report: Any = Non
     _table_sheet(sheets["Stresses"], _with_reason(view.stresses, view), what="stress table")
     _table_sheet(sheets["Points"], view.points, what="point table")
     _inputs_sheet(sheets["Inputs"], view)
-    with _atomic_paths([target]) as temps:
-        wb.save(temps[0])
+    try:
+        with _atomic_paths([target]) as temps:
+            wb.save(temps[0])
+    finally:
+        _discard_unsaved(wb)
     return target
+
+
+def _discard_unsaved(wb) -> None:
+    """After a failed save, end the write-only sheets' row streams and remove their buffers.
+
+    openpyxl buffers each write-only sheet in a temporary file of its own and removes it when
+    the sheet is saved (or at exit); this removes the buffers of sheets a failure left open,
+    so none outlives the export. It reaches into openpyxl's write-only sheet (``_rows``,
+    ``_writer``); should those change, the buffers are still removed at exit.
+    """
+    for ws in wb.worksheets:
+        if getattr(ws, "closed", True):
+            continue
+        with contextlib.suppress(Exception):
+            rows = getattr(ws, "_rows", None)
+            if rows is not None:
+                rows.close()
+        writer = getattr(ws, "_writer", None)
+        if writer is not None:
+            with contextlib.suppress(Exception):
+                writer.close()
+            with contextlib.suppress(Exception):
+                writer.cleanup()
 
 
 class _View:
