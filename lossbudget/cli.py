@@ -173,3 +173,7 @@ from lossbudget.commands.mapping import demo_command, map_command  # noqa: E402
 
 main.add_command(map_command)
 main.add_command(demo_command)
+
+from lossbudget.commands.exporting import export  # noqa: E402
+
+main.add_command(export)

@@ -144,8 +144,9 @@ def write_tables(path: str | os.PathLike, *, budget: Budget) -> tuple[Path, ...]
     path : path-like
         ``<stem>.csv``: the point table there, the loss and stress tables beside it as
         ``<stem>-losses.csv`` and ``<stem>-stresses.csv`` (empty fields where a number is
-        NaN). ``<stem>.json``: one document with ``provenance``, ``point_table``,
-        ``loss_table`` and ``stress_table`` (each a list of records; NaN as null).
+        NaN). ``<stem>.json``: one document with ``provenance``, ``cautions``,
+        ``point_table``, ``loss_table`` and ``stress_table`` (each table a list of records;
+        NaN as null).
     budget : Budget
         The budget to write.
 
@@ -177,7 +178,7 @@ def write_tables(path: str | os.PathLike, *, budget: Budget) -> tuple[Path, ...]
             for frame, temp in zip(tables.values(), temps, strict=True):
                 frame.to_csv(temp, index=False)
         return tuple(targets)
-    document = {"provenance": budget.provenance}
+    document: dict[str, Any] = {"provenance": budget.provenance, "cautions": list(CAUTIONS)}
     document.update({name: _records(frame) for name, frame in tables.items()})
     with _atomic_paths([target]) as temps, open(temps[0], "w", encoding="utf-8") as handle:
         json.dump(document, handle, indent=1, allow_nan=False, default=_json_value)
