@@ -1,0 +1,129 @@
+"""Benchmarks against the speed and size targets of SPEC §9; prints measured vs target.
+
+    .venv/bin/python benchmarks/run.py           # everything (the 1000 × 1000 map takes minutes)
+    .venv/bin/python benchmarks/run.py --quick   # skip the 1000 × 1000 map
+
+Each map is solved in a fresh child process (this script run with ``--case``), so its time
+excludes start-up and its peak memory (``resource.getrusage`` maximum resident set size) is
+its own. The maps use the embedded demo design with the coupled thermal solve, over the
+design's input range × 1 % to 100 % of rated load.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import resource
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+TARGETS = {
+    "map100": 50_000.0,  # operating points a second (100 × 100 in under 0.2 s)
+    "map1000_s": 30.0,  # seconds, 1000 × 1000, point table only
+    "map1000_gb": 2.0,  # peak memory, GB
+    "help_s": 0.5,
+    "demo_s": 10.0,
+}
+
+
+def _case(name: str) -> None:
+    """Run one map in this process and print its figures as JSON."""
+    import importlib.resources
+
+    import numpy as np
+
+    import lossbudget
+
+    n = {"map100": 100, "map1000": 1000}[name]
+    design = lossbudget.load_design(importlib.resources.files("lossbudget") / "data"
+                                    / "demo.toml")
+    op = design.operating
+    vin = np.linspace(op.vin.min, op.vin.max, n)
+    load = np.linspace(0.01, 1.0, n) * op.iout_rated
+    lossbudget.sweep(design, vin=vin[:2], load=load[:2])  # warm the imports and caches
+    repeats = 3 if n <= 100 else 1
+    best = float("inf")
+    rows = 0
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        budget = lossbudget.sweep(design, vin=vin, load=load)
+        table = budget.point_table() if n > 100 else None
+        best = min(best, time.perf_counter() - t0)
+        rows = len(table) if table is not None else budget.efficiency.size
+        del budget, table
+    peak_kb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # kilobytes on Linux
+    print(json.dumps({"points": n * n, "seconds": best, "rows": rows,
+                      "peak_gb": peak_kb * 1024 / 1e9}))
+
+
+def _child(name: str) -> dict:
+    out = subprocess.run([sys.executable, __file__, "--case", name], capture_output=True,
+                         text=True, check=True)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def _cli() -> list[str]:
+    script = Path(sys.executable).with_name("lossbudget")
+    if script.exists():
+        return [str(script)]
+    found = shutil.which("lossbudget")
+    return [found] if found else [sys.executable, "-m", "lossbudget"]
+
+
+def _wall(cmd: list[str], *, repeats: int) -> float:
+    best = float("inf")
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        subprocess.run(cmd, capture_output=True, check=True)
+        best = min(best, time.perf_counter() - t0)
+    return best
+
+
+def _line(what: str, measured: str, target: str, ok: bool) -> str:
+    return f"{what:<44} {measured:>16}   target {target:<14} {'PASS' if ok else 'MISS'}"
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="skip the 1000 × 1000 map")
+    parser.add_argument("--case", help=argparse.SUPPRESS)
+    args = parser.parse_args()
+    if args.case:
+        _case(args.case)
+        return
+    lines = [f"lossbudget benchmarks (SPEC §9), Python {sys.version.split()[0]}, one process "
+             "per case"]
+    m = _child("map100")
+    rate = m["points"] / m["seconds"]
+    lines.append(_line("100 × 100 map, coupled thermal (best of 3)",
+                       f"{rate:,.0f} pt/s", f">= {TARGETS['map100']:,.0f} pt/s",
+                       rate >= TARGETS["map100"]))
+    lines.append(f"{'':<44} {m['seconds']:>14.3f} s   (target 0.2 s)")
+    if args.quick:
+        lines.append("1000 × 1000 map: skipped (--quick)")
+    else:
+        m = _child("map1000")
+        rate = m["points"] / m["seconds"]
+        lines.append(_line("1000 × 1000 map + point table, wall time", f"{m['seconds']:.1f} s",
+                           f"< {TARGETS['map1000_s']:g} s", m["seconds"] < TARGETS["map1000_s"]))
+        lines.append(f"{'':<44} {rate:>11,.0f} pt/s   ({m['rows']:,} rows)")
+        lines.append(_line("1000 × 1000 map, peak memory (max RSS)", f"{m['peak_gb']:.2f} GB",
+                           f"< {TARGETS['map1000_gb']:g} GB",
+                           m["peak_gb"] < TARGETS["map1000_gb"]))
+    cli = _cli()
+    t = _wall([*cli, "--help"], repeats=5)
+    lines.append(_line("lossbudget --help start-up (best of 5)", f"{t:.3f} s",
+                       f"< {TARGETS['help_s']:g} s", t < TARGETS["help_s"]))
+    with tempfile.TemporaryDirectory() as tmp:
+        t = _wall([*cli, "demo", "--out", str(Path(tmp) / "demo")], repeats=1)
+    lines.append(_line("lossbudget demo, end to end", f"{t:.2f} s",
+                       f"< {TARGETS['demo_s']:g} s", t < TARGETS["demo_s"]))
+    print("\n".join(lines))
+
+
+if __name__ == "__main__":
+    main()
