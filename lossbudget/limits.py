@@ -712,7 +712,9 @@ def check_limits(design: Design, *, derating: str | None = None,
     derating : {"none", "moderate", "conservative", "custom"}, optional
         Derating profile; the design's ``limits.derating`` when omitted. The design's own
         ``[limits.margins]`` rows override the profile's rows they name ("custom": the
-        moderate profile for the rows not named).
+        moderate profile for the rows not named). A user margin on a quantity starting with
+        "t" is kelvin below the absolute limit; any other is the fraction held back below the
+        rating (``v_pk = "20 %"``: the design limit is 80 % of the rating).
     corner : {"worst", "typ"}
         Part values; the check is meant for ``"worst"``.
 

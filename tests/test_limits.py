@@ -167,11 +167,19 @@ def test_i_sat_interpolates_and_falls_when_hot_by_hand():
 # --------------------------------------------------------------------------------------------
 
 
-def test_a_design_made_to_pass_passes():
-    rep = report(*NO_LIMIT)
+def test_a_design_made_to_pass_passes_every_limit_kind():
+    rep = report(("operating.i_limit", "12 A"), ("inductor.core.b_sat", "0.3 T"),
+                 ("capacitor.0.i_ripple_rated", {"i": "2 A"}),
+                 ("capacitor.1.life", {"rated": "2000 h", "at": "105 degC",
+                                       "required": "20000 h"}))
     assert rep.worst_status == "ok", [(r.part, r.quantity, r.status) for r in rep.rows]
-    assert {r.part for r in rep.rows} >= {"switch", "rectifier", "inductor", "cin", "cout"}
-    assert not any(r.part == "stage" for r in rep.rows)
+    assert rep.not_checked == ()
+    got = {(r.part, r.quantity) for r in rep.rows}
+    assert got == {("switch", "t_j"), ("switch", "v_pk"), ("rectifier", "t_j"),
+                   ("rectifier", "v_pk"), ("inductor", "t_hot"), ("inductor", "i_pk"),
+                   ("inductor", "i_limit"), ("inductor", "b_pk"), ("cin", "v_pk"),
+                   ("cin", "i_rms"), ("cin", "t_hot"), ("cout", "v_pk"), ("cout", "i_rms"),
+                   ("cout", "t_hot"), ("cout", "life")}
 
 
 def test_switch_voltage_fails_and_cautions_on_the_two_sides_of_the_margin():
@@ -223,10 +231,13 @@ def test_saturation_current_below_the_peak_fails():
 
 
 def test_current_limit_against_hot_saturation():
-    # the demo: i_limit 16 A, i_sat 14 A at 100 degC; the inductor runs near 90 degC
-    lim = row(report(), "inductor", "i_limit")
-    t_hot = row(report(), "inductor", "t_hot")
+    # i_limit 16 A against i_sat 18 A at 25 degC, 14 A at 100 degC; the inductor runs near
+    # 90 degC at the hot corner, where i_sat is below 16 A
+    hot = report(("operating.i_limit", "16 A"), ("inductor.i_sat", [
+        {"i": "18 A", "at": "25 degC"}, {"i": "14 A", "at": "100 degC"}]))
+    lim, t_hot = row(hot, "inductor", "i_limit"), row(hot, "inductor", "t_hot")
     assert lim.worst == 16.0 and lim.status == "fail"
+    assert lim.where == t_hot.where  # the hottest inductor: the lowest i_sat
     assert lim.absolute_limit == pytest.approx(18.0 - 4.0 * (t_hot.worst - 25.0) / 75.0,
                                                rel=1e-9)
     assert row(report(("operating.i_limit", "13 A")), "inductor", "i_limit").status == "ok"
