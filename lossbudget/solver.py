@@ -556,7 +556,9 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
         )
         v = v_edge_of(vin_eff)
         edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r)
-        if step == 0 or slow is None:
+        # the slow losses (harmonics) once per thermal step; every pass in the final
+        # evaluation, so its stresses and rows belong to the reported operating point
+        if step == 0 or slow is None or full:
             slow = _slow_losses(
                 ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=full
             )
