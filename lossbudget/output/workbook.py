@@ -423,8 +423,10 @@ class _Cells:
         cell.number_format = fmt
         return cell
 
-    def header(self, text: Any, *, right: bool = False):
+    def header(self, text: Any, *, right: bool = False, fmt: str | None = None):
         cell = self._cell(self.ws, value=_plain(text))
+        if fmt is not None:
+            cell.number_format = fmt
         cell.font = self._bold
         cell.fill = self._fill
         if right:
@@ -551,7 +553,7 @@ def _map_sheet(ws, view: _View) -> _Grid | None:
     for column, label, values in blocks:
         fmt = _number_format(column)
         ws.append([cells.header(label),
-                   *(cells.header(float(x), right=True) for x in view.loads)])
+                   *(cells.header(float(x), right=True, fmt="0.000") for x in view.loads)])
         for vin, line in zip(view.vins, values, strict=True):
             ws.append([cells.value(float(vin), "0.00"), *(cells.value(v, fmt) for v in line)])
         ref = (f"B{row + 1}:{get_column_letter(grid.last_col)}{row + len(view.vins)}")
