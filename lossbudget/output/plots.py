@@ -189,20 +189,21 @@ def _nice_floor(x: float, step: float) -> float:
     return float(np.floor(x / step) * step)
 
 
-_NICE = np.array([1.0, 1.1, 1.2, 1.3, 1.5, 1.7, 2.0, 2.2, 2.5, 3.0, 3.5, 4.0, 4.5, 5.0, 6.0,
-                  7.0, 8.0, 9.0, 10.0])
+_NICE = np.concatenate([np.arange(1.0, 3.0, 0.1), np.arange(3.0, 5.0, 0.25),
+                        np.arange(5.0, 10.01, 0.5)])
 
 
 def _efficiency_levels(eff: np.ndarray) -> np.ndarray:
     """Contour levels (%) spaced so that each band covers a similar share of the map.
 
-    The levels are quantiles of the map's loss fraction (100 − η) rounded to a 1-1.1-1.2-…-9
-    series, so the bands stay fine near the peak where most of a map usually lies, and
-    coarse at light load where efficiency falls steeply. The lowest 3 % of the map falls
+    The levels are quantiles of the map's loss fraction (100 − η) rounded to a series of
+    round numbers (steps of 0.1 from 1 to 3, 0.25 to 5, 0.5 to 10 in each decade), so the
+    bands stay fine near the peak, where most of a map usually lies, and coarse at light load,
+    where efficiency falls steeply. The lowest 3 % of the map falls
     below the first level (drawn as the colour bar's lower extension).
     """
     loss = 100.0 - eff
-    q = np.quantile(loss, np.linspace(0.0, 0.97, 13))
+    q = np.quantile(loss, np.linspace(0.0, 0.97, 15))
     q = np.maximum(q, 1e-6)
     decade = 10.0 ** np.floor(np.log10(q))
     series = _NICE[None, :] * decade[:, None]
@@ -290,7 +291,9 @@ def efficiency_map(budget: Budget, path, *, rated_load: float | None = None) -> 
         bar.set_ticks(levels, labels=[f"{v:g}" for v in levels])
         lines = ax.contour(load, vin, eff, levels=levels[:-1], colors="black",
                            linewidths=0.6, alpha=0.8)
-        ax.clabel(lines, fmt=lambda v: f"{v:g} %", fontsize=7.5, inline=True)
+        # every other line labelled (counted down from the peak), the colour bar names the rest
+        ax.clabel(lines, levels=lines.levels[::-2], fmt=lambda v: f"{v:g} %", fontsize=7.5,
+                  inline=True)
         k = np.unravel_index(np.nanargmax(eff), eff.shape)
         pv, pl, pe = vin[k[0]], load[k[1]], eff[k]
         ax.plot(pl, pv, marker="*", markersize=16, markerfacecolor="white",
