@@ -6,6 +6,7 @@ import importlib.resources
 import subprocess
 import sys
 import tomllib
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -118,3 +119,12 @@ def test_plots_leave_pyplot_alone():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_titles_carry_the_signed_output_voltage():
+    # The inverting stage's output is negative in the design and on every figure (SPEC §5).
+    d = lossbudget.load_design(Path(__file__).parents[1] / "sample_inputs"
+                               / "frontend_bias_inverting.toml")
+    b = lossbudget.sweep(d, vin=[10.8, 13.2], load=[0.1, 0.4])
+    text = plots._conditions(b)
+    assert "vout -15 V" in text and text.startswith("buck-boost")

@@ -84,9 +84,8 @@ def _conditions(budget: Budget, *, vin: float | None = None) -> str:
     parts = []
     if vin is not None:
         parts.append(f"vin {_q(vin, 'voltage')}")
-    vout = np.asarray(c["vout"]) * (-1.0 if budget.topology == "buck-boost" else 1.0)
     parts += [
-        f"vout {_constant(vout, 'voltage')}",
+        f"vout {_constant(np.asarray(c['vout']), 'voltage')}",  # signed, as in the design
         f"ambient {_constant(np.asarray(c['ambient']), 'temperature')}",
         f"fsw {_constant(np.asarray(c['fsw']), 'frequency')}",
         f"corner {budget.provenance.get('corner', 'typ')}",
