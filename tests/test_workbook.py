@@ -220,11 +220,18 @@ def test_number_formats(wb):
     assert losses.cell(row=2, column=header.index("share") + 1).number_format == "0.00%"
 
 
-def test_column_widths_fit_the_headers(wb):
+def test_column_widths_fit_the_headers_and_text(wb):
     ws = wb["Losses"]
-    for cell in ws[1]:
+    columns = list(ws.iter_cols(values_only=True))
+    for cell, values in zip(ws[1], columns, strict=True):
         width = ws.column_dimensions[cell.column_letter].width
         assert width >= len(cell.value), cell.value
+        texts = [v for v in values[1:] if isinstance(v, str)]
+        if texts:  # text columns fit their longest entry (up to a cap of 60)
+            assert width >= min(max(map(len, texts)), 58), cell.value
+            assert cell.alignment.horizontal is None  # text headers stay left
+        else:
+            assert cell.alignment.horizontal == "right"  # number headers sit over the numbers
 
 
 def test_native_charts(book, wb, budget):

@@ -469,12 +469,19 @@ def _set_widths(ws, widths: Sequence[float]) -> None:
         ws.column_dimensions[get_column_letter(k)].width = width
 
 
+def _is_number_column(series) -> bool:
+    """True for a column of numbers (not text, not true/false)."""
+    from pandas.api.types import is_bool_dtype, is_numeric_dtype
+
+    return is_numeric_dtype(series.dtype) and not is_bool_dtype(series.dtype)
+
+
 def _fit_widths(frame) -> list[float]:
     """Column widths that fit the header and the values (capped for long text)."""
     widths = []
     for column in frame.columns:
         series = frame[column]
-        if series.dtype == object:
+        if not _is_number_column(series):
             longest = int(series.astype(str).str.len().max()) if len(series) else 0
         else:
             longest = 9
@@ -498,7 +505,7 @@ def _table_sheet(ws, frame, *, what: str) -> None:
     formats = [_number_format(c) for c in columns]
     _set_widths(ws, _fit_widths(frame))
     _freeze(ws, "A2")
-    numeric = [frame[c].dtype != object for c in frame.columns]
+    numeric = [_is_number_column(frame[c]) for c in frame.columns]
     ws.append([cells.header(c, right=r) for c, r in zip(columns, numeric, strict=True)])
     for row in frame.itertuples(index=False, name=None):
         ws.append([cells.value(v, f) for v, f in zip(row, formats, strict=True)])
