@@ -202,28 +202,34 @@ def _dowell_small(ds: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _dowell_large(de: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Delta*M - 1 and Delta*D for finite Delta >= 1 (1-D array), divided through by exp.
+    """Delta*M - 1 and Delta*D for finite Delta >= 1, divided through by exp.
 
-    With e = exp(-Delta), T = tan(Delta) and U = tan(Delta/2), the sines and cosines of the
-    printed ratios are written through the tangent half-angle identities
-    (sin 2x = 2T/(1 + T^2), cos 2x = (1 - T^2)/(1 + T^2)) and the common 1 + T^2 (1 + U^2)
-    cancelled; no term is lost to overflow and none cancels beyond the printed form.
+    With e = exp(-Delta), T = tan(Delta) and U = tan(Delta/2), the half-angle identities
+    (sin 2x = 2T/(1 + T^2), cos 2x = (1 - T^2)/(1 + T^2)) turn the printed ratios into
+    M·Delta = Delta [(1 - e^4)(1 + T^2) + 4 e^2 T] / [(1 - e^2)^2 + T^2 (1 + e^2)^2] and
+    D·Delta = 2 Delta [(1 - e^2)(1 + U^2) - 4 e U] / [(1 + e)^2 + U^2 (1 - e)^2]: no term
+    overflows, the denominators are sums of squares, and the numerators cancel no more than
+    the printed form.
     """
     with np.errstate(under="ignore"):  # exp(-delta) -> 0 is the intended limit
         e1 = np.exp(-de)
         e2 = e1 * e1
-        e4 = e2 * e2
+    one_m = 1.0 - e2
+    one_p = 1.0 + e2
     t = np.tan(de)
     t2 = t * t
+    m_ratio = (one_m * one_p) * (1.0 + t2) + 4.0 * (e2 * t)
+    m_ratio /= one_m * one_m + t2 * (one_p * one_p)
+    m_ratio *= de
+    m_ratio -= 1.0
     u = np.tan(0.5 * de)
     u2 = u * u
-    m_ratio = ((1.0 - e4) * (1.0 + t2) + 4.0 * e2 * t) / (
-        (1.0 + e4) * (1.0 + t2) - 2.0 * e2 * (1.0 - t2)
-    )
-    d_ratio = (2.0 * (1.0 - e2) * (1.0 + u2) - 8.0 * e1 * u) / (
-        (1.0 + e2) * (1.0 + u2) + 2.0 * e1 * (1.0 - u2)
-    )
-    return de * m_ratio - 1.0, de * d_ratio
+    d_ratio = one_m * (1.0 + u2) - 4.0 * (e1 * u)
+    a = 1.0 + e1
+    b = 1.0 - e1
+    d_ratio /= a * a + u2 * (b * b)
+    d_ratio *= 2.0 * de
+    return m_ratio, d_ratio
 
 
 def _dowell_excess(delta: np.ndarray, layers: np.ndarray) -> np.ndarray:
@@ -232,30 +238,31 @@ def _dowell_excess(delta: np.ndarray, layers: np.ndarray) -> np.ndarray:
     NaN where delta < 0 or layers < 1; infinite at delta = inf. Each branch is evaluated on
     its own points only.
     """
-    delta, layers = np.broadcast_arrays(
-        np.asarray(delta, dtype=float), np.asarray(layers, dtype=float)
+    delta = np.asarray(delta, dtype=float)
+    layers = np.asarray(layers, dtype=float)
+    shape = np.broadcast_shapes(delta.shape, layers.shape)
+    layers_ok = (layers >= 1) & np.isfinite(layers)
+    p = (layers * layers - 1.0) / 3.0
+    branches = (
+        (_dowell_small, (delta >= 0) & (delta < _DOWELL_SPLIT)),
+        (_dowell_large, (delta >= _DOWELL_SPLIT) & (delta < np.inf)),
     )
-    valid = (delta >= 0) & (layers >= 1) & np.isfinite(layers)
-    excess = np.full(delta.shape, np.nan)
-    excess[valid & np.isposinf(delta)] = np.inf
-    for branch, where in (
-        (_dowell_small, valid & (delta < _DOWELL_SPLIT)),
-        (_dowell_large, valid & (delta >= _DOWELL_SPLIT) & np.isfinite(delta)),
-    ):
-        if where.all():
-            d, m = delta.ravel(), layers.ravel()
-        elif where.any():
-            d, m = delta[where], layers[where]
-        else:
-            continue
-        m_part, d_part = branch(d)
-        with np.errstate(over="ignore"):
-            part = m_part + (m * m - 1.0) / 3.0 * d_part
-        if where.all():
-            excess = part.reshape(delta.shape)
-        else:
-            excess[where] = part
-    return excess
+    for branch, where in branches:
+        if where.all():  # the usual case: every point in one branch
+            m_part, d_part = branch(np.broadcast_to(delta, shape).ravel())
+            with np.errstate(over="ignore"):
+                excess = m_part.reshape(shape) + p * d_part.reshape(shape)
+            return excess if layers_ok.all() else np.where(layers_ok, excess, np.nan)
+    delta, layers_ok, p = (np.broadcast_to(x, shape) for x in (delta, layers_ok, p))
+    excess = np.full(shape, np.nan)
+    excess[np.isposinf(delta)] = np.inf
+    for branch, where in branches:
+        where = np.broadcast_to(where, shape)
+        if where.any():
+            m_part, d_part = branch(delta[where])
+            with np.errstate(over="ignore"):
+                excess[where] = m_part + p[where] * d_part
+    return np.where(layers_ok, excess, np.nan)
 
 
 def ac_resistance_factor_dowell(delta: ArrayLike, *, layers: ArrayLike) -> np.ndarray:
@@ -445,14 +452,16 @@ def copper_ac_loss_dowell(
     i_n = np.asarray(harmonic_rms, dtype=float)
     if i_n.ndim == 0:
         i_n = i_n[np.newaxis]
-    order = np.arange(1, i_n.shape[-1] + 1, dtype=float)
-    delta_n = np.asarray(delta1, dtype=float)[..., np.newaxis] * np.sqrt(order)
-    m = np.asarray(layers, dtype=float)[..., np.newaxis]
-    excess = _dowell_excess(delta_n, m)
-    # A harmonic of zero amplitude adds nothing, whatever its factor (even an infinite one).
-    with np.errstate(invalid="ignore"):
-        terms = np.where(i_n == 0.0, 0.0, i_n * i_n * excess)
-    return np.asarray(rdc, dtype=float) * np.sum(terms, axis=-1)
+    delta1 = np.asarray(delta1, dtype=float)
+    m = np.asarray(layers, dtype=float)
+    total = np.zeros(np.broadcast_shapes(i_n.shape[:-1], delta1.shape, m.shape))
+    # Harmonic by harmonic, so that each pass works on arrays the size of the leading axes.
+    for n, i_h in enumerate(np.moveaxis(i_n, -1, 0).copy(), start=1):
+        excess = _dowell_excess(delta1 * np.sqrt(float(n)), m)
+        # A harmonic of zero amplitude adds nothing, whatever its factor (even an infinite one).
+        with np.errstate(invalid="ignore"):
+            total += np.where(i_h == 0.0, 0.0, i_h * i_h * excess)
+    return np.asarray(rdc, dtype=float) * total
 
 
 def ac_resistance_factor_isolated_wire(
