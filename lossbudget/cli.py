@@ -11,36 +11,38 @@ Exit status: 0 done, 1 a limit check failed, 2 bad input, 3 an internal error (a
 
 from __future__ import annotations
 
-import functools
-import sys
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any, TypeVar
+from typing import Any
 
 import click
 
 from lossbudget import __version__
-from lossbudget.design import Design, load_design
-from lossbudget.errors import DesignError
+from lossbudget.commands.common import (
+    EXIT_BAD_INPUT,
+    EXIT_INTERNAL,
+    EXIT_LIMIT_FAILED,
+    EXIT_OK,
+    PROG,
+    BadInput,
+    design_argument,
+    read_design,
+    reports_bad_input,
+)
 from lossbudget.output.tables import aligned_table
 
-EXIT_OK = 0
-EXIT_LIMIT_FAILED = 1
-EXIT_BAD_INPUT = 2
-EXIT_INTERNAL = 3
-
-PROG = "lossbudget"
-
-F = TypeVar("F", bound=Callable[..., Any])
-
-
-class BadInput(click.ClickException):
-    """A one-line error about the user's input; exit status 2."""
-
-    exit_code = EXIT_BAD_INPUT
-
-    def show(self, file: Any = None) -> None:
-        click.echo(f"{PROG}: {self.format_message()}", err=True)
+__all__ = [
+    "EXIT_BAD_INPUT",
+    "EXIT_INTERNAL",
+    "EXIT_LIMIT_FAILED",
+    "EXIT_OK",
+    "PROG",
+    "BadInput",
+    "design_argument",
+    "main",
+    "read_design",
+    "reports_bad_input",
+]
 
 
 class _Group(click.Group):
@@ -65,61 +67,6 @@ def _one_line_usage(call: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
         ctx = exc.ctx
         where = ctx.command_path if ctx is not None else PROG
         raise BadInput(f"{exc.format_message()} (see '{where} -h')") from exc
-
-
-def _debug() -> bool:
-    ctx = click.get_current_context(silent=True)
-    return bool(ctx is not None and ctx.find_root().params.get("debug"))
-
-
-def reports_bad_input(func: F) -> F:
-    """Turn bad input into one line per problem on stderr and exit 2 (traceback with --debug).
-
-    A :class:`DesignError` prints each of its problems; an ``OSError`` (a file that cannot be
-    read or written) prints its path and reason. Any other exception is a bug: one line and
-    exit 3, unless ``--debug`` asks for the traceback.
-    """
-
-    @functools.wraps(func)
-    def wrapper(*args: Any, **kwargs: Any) -> Any:
-        try:
-            return func(*args, **kwargs)
-        except (click.ClickException, click.exceptions.Exit, click.Abort, BrokenPipeError):
-            raise  # click reports these itself (a closed pipe ends quietly)
-        except DesignError as exc:
-            if _debug():
-                raise
-            for line in exc.problems:
-                click.echo(line, err=True)
-            sys.exit(EXIT_BAD_INPUT)
-        except OSError as exc:
-            if _debug():
-                raise
-            name = exc.filename if exc.filename is not None else ""
-            click.echo(f"{PROG}: {name}: {exc.strerror or exc}".replace(": : ", ": "), err=True)
-            sys.exit(EXIT_BAD_INPUT)
-        except Exception as exc:
-            if _debug():
-                raise
-            click.echo(
-                f"{PROG}: internal error ({type(exc).__name__}: {exc}); "
-                "run again with --debug for the traceback",
-                err=True,
-            )
-            sys.exit(EXIT_INTERNAL)
-
-    return wrapper  # type: ignore[return-value]
-
-
-design_argument = click.argument(
-    "design", metavar="DESIGN", type=click.Path(dir_okay=False, path_type=Path)
-)
-"""The positional design-file argument every design command takes."""
-
-
-def read_design(path: Path) -> Design:
-    """Load a design file for a command (errors are reported by :func:`reports_bad_input`)."""
-    return load_design(path)
 
 
 @click.group(

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import click
 
-from lossbudget.cli import (
+from lossbudget.commands.common import (
     EXIT_LIMIT_FAILED,
     EXIT_OK,
     design_argument,

@@ -16,9 +16,14 @@ import click
 import numpy as np
 
 from lossbudget.cautions import CAUTIONS
-from lossbudget.cli import BadInput, design_argument, read_design, reports_bad_input
+from lossbudget.commands.common import (
+    BadInput,
+    design_argument,
+    quantity,
+    read_design,
+    reports_bad_input,
+)
 from lossbudget.commands.mapping import _progress, load_points, vin_axis
-from lossbudget.commands.point import quantity
 from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 

@@ -20,8 +20,14 @@ import click
 import numpy as np
 
 from lossbudget.cautions import CAUTIONS
-from lossbudget.cli import BadInput, design_argument, read_design, reports_bad_input
-from lossbudget.commands.point import point_report, quantity
+from lossbudget.commands.common import (
+    BadInput,
+    design_argument,
+    quantity,
+    read_design,
+    reports_bad_input,
+)
+from lossbudget.commands.point import point_report
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
 from lossbudget.output.tables import aligned_table

@@ -8,23 +8,15 @@ import click
 import numpy as np
 
 from lossbudget.cautions import CAUTIONS
-from lossbudget.cli import BadInput, design_argument, read_design, reports_bad_input
+from lossbudget.commands.common import (
+    BadInput,
+    design_argument,
+    quantity,
+    read_design,
+    reports_bad_input,
+)
 from lossbudget.output.tables import aligned_table
-from lossbudget.units import format_quantity, parse_quantity
-
-
-def quantity(text: str | None, dimension: str, option: str) -> float | None:
-    """Parse a command-line quantity ("24 V" or a bare SI number) or raise BadInput."""
-    if text is None:
-        return None
-    try:
-        value: object = float(text)
-    except ValueError:
-        value = text
-    try:
-        return parse_quantity(value, dimension, where=option)
-    except ValueError as exc:
-        raise BadInput(str(exc)) from None
+from lossbudget.units import format_quantity
 
 
 def point_report(budget) -> str:
