@@ -30,6 +30,7 @@ from lossbudget.commands.common import (
 from lossbudget.commands.point import point_report
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
+from lossbudget.output.files import atomic_paths
 from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
@@ -156,13 +157,8 @@ def _progress(total_points: int):
 
 def _write_csv(frame, path: Path) -> Path:
     """Write a table as CSV atomically (a temporary file beside it, then a rename)."""
-    tmp = path.with_name(f".{path.name}.partial")
-    try:
-        frame.to_csv(tmp, index=False)
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
+    with atomic_paths([path]) as temps:
+        frame.to_csv(temps[0], index=False)
     return path
 
 

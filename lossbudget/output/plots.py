@@ -13,12 +13,12 @@ repeat the distinction for print in grey. Every figure carries the caption line
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import numpy as np
 
 from lossbudget.budget import Budget
+from lossbudget.output.files import atomic_paths
 from lossbudget.units import format_quantity
 
 FORMATS = (".png", ".svg", ".pdf")
@@ -116,13 +116,8 @@ def _decorate(fig, ax, budget: Budget, what: str, *, vin: float | None = None) -
 def _save(fig, path: Path) -> Path:
     """Write the figure atomically: a temporary file in the target folder, then a rename."""
     path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.stem}.partial{path.suffix}")
-    try:
-        fig.savefig(tmp, format=path.suffix[1:].lower(), dpi=150)
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
+    with atomic_paths([path]) as temps:
+        fig.savefig(temps[0], format=path.suffix[1:].lower(), dpi=150)
     return path
 
 

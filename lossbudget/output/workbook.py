@@ -17,9 +17,7 @@ import errno
 import json
 import math
 import os
-import stat
-import tempfile
-from collections.abc import Iterator, Sequence
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
@@ -27,6 +25,7 @@ import numpy as np
 
 from lossbudget.budget import AXIS_COLUMNS, Budget
 from lossbudget.cautions import CAUTIONS
+from lossbudget.output.files import atomic_paths
 
 WORKBOOK_SUFFIXES = (".xlsx",)
 TABLE_SUFFIXES = (".csv", ".json")
@@ -95,42 +94,6 @@ def check_target(path: str | os.PathLike, *, suffixes: Sequence[str]) -> Path:
     return target
 
 
-@contextlib.contextmanager
-def _atomic_paths(targets: Sequence[Path]) -> Iterator[list[Path]]:
-    """Temporary files beside each target, renamed over the targets when the block succeeds.
-
-    On any failure (an exception, an interrupt) every temporary file is removed and the
-    targets are left as they were.
-    """
-    temps: list[Path] = []
-    try:
-        for target in targets:
-            try:
-                fd, name = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.",
-                                            suffix=".part")
-            except OSError as exc:
-                raise type(exc)(exc.errno, f"cannot write: {exc.strerror}", str(target)) from exc
-            os.close(fd)
-            temps.append(Path(name))
-        yield temps
-        for temp, target in zip(temps, targets, strict=True):
-            os.chmod(temp, _file_mode(target))
-            os.replace(temp, target)
-    except BaseException:
-        for temp in temps:
-            with contextlib.suppress(OSError):
-                temp.unlink()
-        raise
-
-
-def _file_mode(target: Path) -> int:
-    """Permissions for the new file: those of the file it replaces, else rw-r--r--."""
-    try:
-        return stat.S_IMODE(target.stat().st_mode)
-    except OSError:
-        return 0o644
-
-
 # --------------------------------------------------------------------------------------------
 # plain tables: CSV and JSON
 # --------------------------------------------------------------------------------------------
@@ -174,13 +137,13 @@ def write_tables(path: str | os.PathLike, *, budget: Budget) -> tuple[Path, ...]
             target.with_name(f"{target.stem}-losses{target.suffix}"),
             target.with_name(f"{target.stem}-stresses{target.suffix}"),
         ]
-        with _atomic_paths(targets) as temps:
+        with atomic_paths(targets) as temps:
             for frame, temp in zip(tables.values(), temps, strict=True):
                 frame.to_csv(temp, index=False)
         return tuple(targets)
     document: dict[str, Any] = {"provenance": budget.provenance, "cautions": list(CAUTIONS)}
     document.update({name: _records(frame) for name, frame in tables.items()})
-    with _atomic_paths([target]) as temps, open(temps[0], "w", encoding="utf-8") as handle:
+    with atomic_paths([target]) as temps, open(temps[0], "w", encoding="utf-8") as handle:
         json.dump(document, handle, indent=1, allow_nan=False, default=_json_value)
         handle.write("\n")
     return (target,)
@@ -282,7 +245,7 @@ def write_workbook(path: str | os.PathLike, *, budget: Budget, report: Any = Non
     _table_sheet(sheets["Points"], view.points, what="point table")
     _inputs_sheet(sheets["Inputs"], view)
     try:
-        with _atomic_paths([target]) as temps:
+        with atomic_paths([target]) as temps:
             wb.save(temps[0])
     finally:
         _discard_unsaved(wb)
