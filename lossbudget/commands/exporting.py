@@ -23,7 +23,7 @@ from lossbudget.commands.common import (
     read_design,
     reports_bad_input,
 )
-from lossbudget.commands.mapping import _progress, load_points, vin_axis
+from lossbudget.commands.mapping import _progress, grid_options, load_points, vin_axis
 from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
@@ -39,29 +39,43 @@ def _span(values: np.ndarray, dimension: str) -> str:
 
 @click.command("export")
 @design_argument
-@click.option("-o", "--output", required=True, metavar="FILE",
-              type=click.Path(dir_okay=False, path_type=Path),
-              help="File to write: .xlsx (the workbook), .csv (the point table there, the loss "
-                   "and stress tables beside it as STEM-losses.csv and STEM-stresses.csv) or "
-                   ".json (the three tables and the provenance). The folder must exist.")
-@click.option("--vin", "vin_range", metavar="START:STOP:COUNT",
-              help='Input voltages, e.g. 18:32:15 or "18 V:32 V:15" [V]; default the '
-                   "design's vin min to max, 15 points.")
-@click.option("--load", "load_range", metavar="START:STOP:COUNT",
-              help='Output currents, e.g. 0.2:4:40 or "0.2 A:4 A:40" [A].')
-@click.option("--load-pct", "load_pct_range", metavar="START:STOP:COUNT",
-              help="Output currents in percent of rated, e.g. 5:100:40 [%]; the default.")
-@click.option("--log-load", is_flag=True, help="Space the loads logarithmically.")
-@click.option("--ambient", help='Ambient temperature, e.g. "40 degC" [degC or K]; default '
-                                "the nominal.")
-@click.option("--corner", type=click.Choice(["typ", "worst"]), default="typ",
-              show_default=True, help="Part values: typical or worst case.")
-@click.option("--with-limits/--no-limits", default=True, show_default=True,
-              help="Check the limits over the design's envelope (worst-case part values) and "
-                   "show the rows on the workbook's summary sheet (.xlsx only).")
+@click.option(
+    "-o",
+    "--output",
+    required=True,
+    metavar="FILE",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="File to write: .xlsx (the workbook), .csv (the point table there, the loss "
+    "and stress tables beside it as STEM-losses.csv and STEM-stresses.csv) or "
+    ".json (the three tables and the provenance). The folder must exist.",
+)
+@grid_options
+@click.option(
+    "--corner",
+    type=click.Choice(["typ", "worst"]),
+    default="typ",
+    show_default=True,
+    help="Part values: typical or worst case.",
+)
+@click.option(
+    "--with-limits/--no-limits",
+    default=True,
+    show_default=True,
+    help="Check the limits over the design's envelope (worst-case part values) and "
+    "show the rows on the workbook's summary sheet (.xlsx only).",
+)
 @reports_bad_input
-def export(design: Path, output: Path, vin_range, load_range, load_pct_range, log_load,
-           ambient, corner, with_limits) -> None:
+def export(
+    design: Path,
+    output: Path,
+    vin_range,
+    load_range,
+    load_pct_range,
+    log_load,
+    ambient,
+    corner,
+    with_limits,
+) -> None:
     """Write the loss budget over input voltage × load as a workbook (.xlsx), CSV tables
     (.csv) or one JSON document (.json), chosen by the suffix of FILE."""
     from lossbudget.output.workbook import check_target, write_tables, write_workbook
@@ -69,15 +83,18 @@ def export(design: Path, output: Path, vin_range, load_range, load_pct_range, lo
 
     suffix = output.suffix.lower()
     if suffix not in SUFFIXES:
-        raise BadInput(f"-o {output}: expected a file name ending in .xlsx, .csv or .json, "
-                       f"got {suffix or 'no suffix'!r}")
+        raise BadInput(
+            f"-o {output}: expected a file name ending in .xlsx, .csv or .json, "
+            f"got {suffix or 'no suffix'!r}"
+        )
     d = read_design(design)
     vin = vin_axis(d, vin_range)
     load = load_points(d, load=load_range, load_pct=load_pct_range, log_load=log_load)
     amb = quantity(ambient, "temperature", "--ambient")
     check_target(output, suffixes=SUFFIXES)  # a folder that is missing fails before the solve
-    budget = sweep_rows(d, vin=vin, load=load, ambient=amb, corner=corner,
-                        progress=_progress(vin.size * load.size))
+    budget = sweep_rows(
+        d, vin=vin, load=load, ambient=amb, corner=corner, progress=_progress(vin.size * load.size)
+    )
     lines = [
         f"{d.name}: {vin.size} × {load.size} points (vin {_span(vin, 'voltage')}, load "
         f"{_span(load, 'current')}), ambient "
@@ -96,14 +113,23 @@ def export(design: Path, output: Path, vin_range, load_range, load_pct_range, lo
                 lines.append("  limit check skipped: lossbudget.limits is not available")
             else:
                 report = check_limits(d)
-                lines.append(f"  limit check ({report.corner} part values, derating "
-                             f"{report.derating}): worst status {report.worst_status}")
-        files = [("workbook", write_workbook(output, budget=budget, report=report,
-                                             weighted=weighted, design=d))]
+                lines.append(
+                    f"  limit check ({report.corner} part values, derating "
+                    f"{report.derating}): worst status {report.worst_status}"
+                )
+        files = [
+            (
+                "workbook",
+                write_workbook(output, budget=budget, report=report, weighted=weighted, design=d),
+            )
+        ]
     else:
         written = write_tables(output, budget=budget)
-        names = ("point table", "loss table", "stress table") if suffix == ".csv" else (
-            "tables and provenance",)
+        names = (
+            ("point table", "loss table", "stress table")
+            if suffix == ".csv"
+            else ("tables and provenance",)
+        )
         files = list(zip(names, written, strict=True))
     click.echo("\n".join(lines))
     click.echo("")

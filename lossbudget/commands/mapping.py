@@ -57,15 +57,16 @@ def parse_range(text: str, dimension: str, option: str) -> tuple[float, float, i
     """
     parts = text.split(":")
     if len(parts) != 3:
-        raise BadInput(f'{option}: expected START:STOP:COUNT (e.g. "18 V:32 V:15"), '
-                       f'got "{text}"')
+        raise BadInput(f'{option}: expected START:STOP:COUNT (e.g. "18 V:32 V:15"), got "{text}"')
     start = quantity(parts[0].strip(), dimension, f"{option} start")
     stop = quantity(parts[1].strip(), dimension, f"{option} stop")
     try:
         count = int(parts[2].strip())
     except ValueError:
-        raise BadInput(f'{option}: expected an integer point count after the second ":", '
-                       f'got "{parts[2].strip()}"') from None
+        raise BadInput(
+            f'{option}: expected an integer point count after the second ":", '
+            f'got "{parts[2].strip()}"'
+        ) from None
     return float(start), float(stop), count
 
 
@@ -73,8 +74,10 @@ def _percent(text: str, option: str) -> tuple[float, float, int]:
     """A percent range: bare numbers are percent ("5:100:40"), "5 %" is read as 5 percent."""
     parts = text.split(":")
     if len(parts) != 3:
-        raise BadInput(f'{option}: expected START:STOP:COUNT in percent of rated (e.g. '
-                       f'"5:100:40"), got "{text}"')
+        raise BadInput(
+            f"{option}: expected START:STOP:COUNT in percent of rated (e.g. "
+            f'"5:100:40"), got "{text}"'
+        )
     bounds = []
     for part, name in zip(parts[:2], ("start", "stop"), strict=True):
         value = quantity(part.strip(), "fraction", f"{option} {name}")
@@ -92,8 +95,10 @@ def vin_axis(design: Design, text: str | None) -> np.ndarray:
         return np.linspace(op.vin.min, op.vin.max, 15)
     start, stop, count = parse_range(text, "voltage", "--vin")
     if count < 1 or (count == 1 and start != stop):
-        raise BadInput(f'--vin: expected 2 or more points between two voltages (1 point only '
-                       f'for START = STOP), got "{text}"')
+        raise BadInput(
+            f"--vin: expected 2 or more points between two voltages (1 point only "
+            f'for START = STOP), got "{text}"'
+        )
     if start <= 0 or stop <= 0:
         raise BadInput(f'--vin: expected input voltages above 0 V, got "{text}"')
     if stop < start:
@@ -101,24 +106,26 @@ def vin_axis(design: Design, text: str | None) -> np.ndarray:
     return np.linspace(start, stop, count)
 
 
-def load_points(design: Design, *, load: str | None, load_pct: str | None,
-                log_load: bool) -> np.ndarray:
+def load_points(
+    design: Design, *, load: str | None, load_pct: str | None, log_load: bool
+) -> np.ndarray:
     """The load axis from ``--load`` or ``--load-pct`` (default 5 % to 100 %, 40 points). [A]"""
     from lossbudget.sweep import load_axis
 
     if load is not None and load_pct is not None:
         raise BadInput("give --load or --load-pct, not both")
     if load is not None:
-        option, (start, stop, count), percent = "--load", parse_range(load, "current",
-                                                                       "--load"), False
+        option, (start, stop, count), percent = (
+            "--load",
+            parse_range(load, "current", "--load"),
+            False,
+        )
     else:
         option = "--load-pct"
-        start, stop, count = (5.0, 100.0, 40) if load_pct is None else _percent(load_pct,
-                                                                                 option)
+        start, stop, count = (5.0, 100.0, 40) if load_pct is None else _percent(load_pct, option)
         percent = True
     try:
-        return load_axis(design, start=start, stop=stop, count=count, log=log_load,
-                         percent=percent)
+        return load_axis(design, start=start, stop=stop, count=count, log=log_load, percent=percent)
     except DesignError as exc:
         raise BadInput(f"{option}: " + "; ".join(exc.problems)) from None
 
@@ -162,8 +169,16 @@ def _write_csv(frame, path: Path) -> Path:
     return path
 
 
-def run_map(design: Design, *, vin: np.ndarray, load: np.ndarray, ambient: float | None,
-            out: Path, fmt: str, long_table: bool) -> MapRun:
+def run_map(
+    design: Design,
+    *,
+    vin: np.ndarray,
+    load: np.ndarray,
+    ambient: float | None,
+    out: Path,
+    fmt: str,
+    long_table: bool,
+) -> MapRun:
     """Sweep, plot, tabulate and summarise a map into ``out``."""
     from lossbudget.output import plots
     from lossbudget.sweep import map_summary, sweep_rows, weighted_efficiency
@@ -172,8 +187,9 @@ def run_map(design: Design, *, vin: np.ndarray, load: np.ndarray, ambient: float
     out.mkdir(parents=True, exist_ok=True)
     if not os.access(out, os.W_OK | os.X_OK):
         raise PermissionError(13, "cannot write: the folder is not writable", str(out))
-    budget = sweep_rows(design, vin=vin, load=load, ambient=ambient,
-                        progress=_progress(vin.size * load.size))
+    budget = sweep_rows(
+        design, vin=vin, load=load, ambient=ambient, progress=_progress(vin.size * load.size)
+    )
     summary = map_summary(budget, rated_load=op.iout_rated)
     weighted = weighted_efficiency(design, ambient=ambient)
     files: list[tuple[str, Path]] = []
@@ -181,25 +197,52 @@ def run_map(design: Design, *, vin: np.ndarray, load: np.ndarray, ambient: float
     rated = op.iout_rated
     target = {what: out / f"{stem}.{fmt}" for what, stem in FILE_NAMES.items()}
     if vin.size >= 2 and load.size >= 2:
-        files.append(("efficiency map",
-                      plots.efficiency_map(budget, target["efficiency map"], rated_load=rated)))
+        files.append(
+            (
+                "efficiency map",
+                plots.efficiency_map(budget, target["efficiency map"], rated_load=rated),
+            )
+        )
     else:
         notes.append("efficiency map skipped: it needs 2 or more input voltages and loads")
-    files.append(("efficiency curves", plots.efficiency_curves(
-        budget, target["efficiency curves"],
-        vins=[op.vin.min, op.vin.nom, op.vin.max] if vin.size > 3 else None, rated_load=rated)))
-    files.append(("loss breakdown", plots.loss_breakdown(
-        budget, target["loss breakdown"], vin=op.vin.nom, rated_load=rated)))
-    files.append(("temperatures", plots.temperature_curves(
-        budget, target["temperatures"], vin=op.vin.nom, rated_load=rated)))
+    files.append(
+        (
+            "efficiency curves",
+            plots.efficiency_curves(
+                budget,
+                target["efficiency curves"],
+                vins=[op.vin.min, op.vin.nom, op.vin.max] if vin.size > 3 else None,
+                rated_load=rated,
+            ),
+        )
+    )
+    files.append(
+        (
+            "loss breakdown",
+            plots.loss_breakdown(
+                budget, target["loss breakdown"], vin=op.vin.nom, rated_load=rated
+            ),
+        )
+    )
+    files.append(
+        (
+            "temperatures",
+            plots.temperature_curves(
+                budget, target["temperatures"], vin=op.vin.nom, rated_load=rated
+            ),
+        )
+    )
     files.append(("point table", _write_csv(budget.point_table(), out / "points.csv")))
     if summary.points <= LONG_TABLE_POINTS or long_table:
         files.append(("loss table", _write_csv(budget.loss_table(), out / "losses.csv")))
     else:
-        notes.append(f"losses.csv skipped: {summary.points:,} points is above "
-                     f"{LONG_TABLE_POINTS:,} (add --long-table to write it)")
-    return MapRun(budget=budget, summary=summary, weighted=weighted, files=tuple(files),
-                  notes=tuple(notes))
+        notes.append(
+            f"losses.csv skipped: {summary.points:,} points is above "
+            f"{LONG_TABLE_POINTS:,} (add --long-table to write it)"
+        )
+    return MapRun(
+        budget=budget, summary=summary, weighted=weighted, files=tuple(files), notes=tuple(notes)
+    )
 
 
 # --------------------------------------------------------------------------------------------
@@ -219,8 +262,7 @@ def _a(x: float) -> str:
     return format_quantity(x, "current")
 
 
-def map_report(design: Design, run: MapRun, *, cautions: bool = True,
-               files: bool = True) -> str:
+def map_report(design: Design, run: MapRun, *, cautions: bool = True, files: bool = True) -> str:
     """The one-screen summary of a map run."""
     s = run.summary
     b = run.budget
@@ -234,8 +276,10 @@ def map_report(design: Design, run: MapRun, *, cautions: bool = True,
         f"ambient {format_quantity(amb, 'temperature')}, {b.provenance['corner']} part values",
     ]
     if math.isfinite(s.peak_efficiency):
-        lines.append(f"  peak efficiency {_pct(s.peak_efficiency)} at vin {_v(s.peak_vin)}, "
-                     f"load {_a(s.peak_load)} ({s.peak_load / rated * 100:.0f} % of rated)")
+        lines.append(
+            f"  peak efficiency {_pct(s.peak_efficiency)} at vin {_v(s.peak_vin)}, "
+            f"load {_a(s.peak_load)} ({s.peak_load / rated * 100:.0f} % of rated)"
+        )
     else:
         lines.append("  no point of the map could be solved")
     flagged = f"{s.flagged_points} flagged"
@@ -243,25 +287,43 @@ def map_report(design: Design, run: MapRun, *, cautions: bool = True,
         flagged += " (" + "; ".join(f"{n}: {r}" for r, n in s.flagged_reasons) + ")"
     lines.append(f"  DCM at {s.dcm_points} of {s.points} points; {flagged}")
     lines.append("")
-    at = ("at rated load" if math.isclose(s.rated_load, rated, rel_tol=1e-9)
-          else f"at the map's load nearest rated ({_a(s.rated_load)}; rated {_a(rated)})")
-    idx = np.unique(np.round(np.linspace(0, s.rated_vin.size - 1,
-                                         min(SUMMARY_ROWS, s.rated_vin.size))).astype(int))
+    at = (
+        "at rated load"
+        if math.isclose(s.rated_load, rated, rel_tol=1e-9)
+        else f"at the map's load nearest rated ({_a(s.rated_load)}; rated {_a(rated)})"
+    )
+    idx = np.unique(
+        np.round(np.linspace(0, s.rated_vin.size - 1, min(SUMMARY_ROWS, s.rated_vin.size))).astype(
+            int
+        )
+    )
     shown = "" if idx.size == s.rated_vin.size else f", {idx.size} of {s.rated_vin.size} rows"
     lines.append(f"  efficiency {at} ({_a(s.rated_load)}) over the input range{shown}:")
-    lines.append(aligned_table(
-        ("vin", "efficiency"),
-        [(_v(s.rated_vin[i]), _pct(s.rated_efficiency[i])) for i in idx],
-        right=(True, True), indent="    "))
+    lines.append(
+        aligned_table(
+            ("vin", "efficiency"),
+            [(_v(s.rated_vin[i]), _pct(s.rated_efficiency[i])) for i in idx],
+            right=(True, True),
+            indent="    ",
+        )
+    )
     lines.append("")
-    lines.append("  weighted efficiency (each load point solved, not interpolated; "
-                 f"ambient {format_quantity(amb, 'temperature')}):")
+    lines.append(
+        "  weighted efficiency (each load point solved, not interpolated; "
+        f"ambient {format_quantity(amb, 'temperature')}):"
+    )
     vins = list(dict.fromkeys(f.vin for f in run.weighted))
     names = list(dict.fromkeys(f.name for f in run.weighted))
     by = {(f.name, f.vin): f for f in run.weighted}
     rows = [[n, *(_pct(by[n, v].value) for v in vins)] for n in names]
-    lines.append(aligned_table(("figure", *(f"vin {_v(v)}" for v in vins)), rows,
-                               right=(False, *([True] * len(vins))), indent="    "))
+    lines.append(
+        aligned_table(
+            ("figure", *(f"vin {_v(v)}" for v in vins)),
+            rows,
+            right=(False, *([True] * len(vins))),
+            indent="    ",
+        )
+    )
     for f in run.weighted:
         if f.reason:
             lines.append(f"    n/a {f.name} at vin {_v(f.vin)}: {f.reason}")
@@ -271,8 +333,9 @@ def map_report(design: Design, run: MapRun, *, cautions: bool = True,
     if files:
         lines.append("")
         lines.append("  files:")
-        lines.append(aligned_table(("what", "file"), [(w, str(p)) for w, p in run.files],
-                                   indent="    "))
+        lines.append(
+            aligned_table(("what", "file"), [(w, str(p)) for w, p in run.files], indent="    ")
+        )
     lines.extend(f"  note: {n}" for n in run.notes)
     if cautions:
         lines.append("")
@@ -284,6 +347,39 @@ def _wrap(text: str, indent: str) -> str:
     return textwrap.fill(text, width=96, initial_indent=indent, subsequent_indent=indent + "  ")
 
 
+def grid_options(command):
+    """The grid options of the commands that sweep a map (map, export)."""
+    options = [
+        click.option(
+            "--vin",
+            "vin_range",
+            metavar="START:STOP:COUNT",
+            help='Input voltages, e.g. 18:32:15 or "18 V:32 V:15" [V]; default the '
+            "design's vin min to max, 15 points.",
+        ),
+        click.option(
+            "--load",
+            "load_range",
+            metavar="START:STOP:COUNT",
+            help='Output currents, e.g. 0.2:4:40 or "0.2 A:4 A:40" [A].',
+        ),
+        click.option(
+            "--load-pct",
+            "load_pct_range",
+            metavar="START:STOP:COUNT",
+            help="Output currents in percent of rated, e.g. 5:100:40 [%]; the default.",
+        ),
+        click.option("--log-load", is_flag=True, help="Space the loads logarithmically."),
+        click.option(
+            "--ambient",
+            help='Ambient temperature, e.g. "40 degC" [degC or K]; default the nominal.',
+        ),
+    ]
+    for option in reversed(options):
+        command = option(command)
+    return command
+
+
 # --------------------------------------------------------------------------------------------
 # the commands
 # --------------------------------------------------------------------------------------------
@@ -291,26 +387,29 @@ def _wrap(text: str, indent: str) -> str:
 
 @click.command("map")
 @design_argument
-@click.option("--vin", "vin_range", metavar="START:STOP:COUNT",
-              help='Input voltages, e.g. 18:32:15 or "18 V:32 V:15" [V]; default the '
-                   "design's vin min to max, 15 points.")
-@click.option("--load", "load_range", metavar="START:STOP:COUNT",
-              help='Output currents, e.g. 0.2:4:40 or "0.2 A:4 A:40" [A].')
-@click.option("--load-pct", "load_pct_range", metavar="START:STOP:COUNT",
-              help="Output currents in percent of rated, e.g. 5:100:40 [%]; the default.")
-@click.option("--log-load", is_flag=True, help="Space the loads logarithmically.")
-@click.option("--ambient", help='Ambient temperature, e.g. "40 degC" [degC or K]; default '
-                                "the nominal.")
-@click.option("--out", type=click.Path(file_okay=False, path_type=Path),
-              default=Path("lossbudget-map"), show_default=True,
-              help="Folder for the plots and tables (created if missing).")
-@click.option("--format", "fmt", type=click.Choice(["png", "svg", "pdf"]), default="png",
-              show_default=True, help="Plot file format.")
-@click.option("--long-table", is_flag=True,
-              help=f"Write losses.csv even above {LONG_TABLE_POINTS:,} points.")
+@grid_options
+@click.option(
+    "--out",
+    type=click.Path(file_okay=False, path_type=Path),
+    default=Path("lossbudget-map"),
+    show_default=True,
+    help="Folder for the plots and tables (created if missing).",
+)
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(["png", "svg", "pdf"]),
+    default="png",
+    show_default=True,
+    help="Plot file format.",
+)
+@click.option(
+    "--long-table", is_flag=True, help=f"Write losses.csv even above {LONG_TABLE_POINTS:,} points."
+)
 @reports_bad_input
-def map_command(design: Path, vin_range, load_range, load_pct_range, log_load, ambient, out,
-                fmt, long_table) -> None:
+def map_command(
+    design: Path, vin_range, load_range, load_pct_range, log_load, ambient, out, fmt, long_table
+) -> None:
     """Efficiency map over input voltage × load: four plots, the point and loss tables
     (CSV), and a summary with the peak, the rated-load efficiency and weighted figures."""
     d = read_design(design)
@@ -321,27 +420,54 @@ def map_command(design: Path, vin_range, load_range, load_pct_range, log_load, a
     click.echo(map_report(d, run))
 
 
-_AXIS_DIMENSIONS = {"vin": "voltage", "vout": "voltage", "load": "current",
-                    "ambient": "temperature", "fsw": "frequency"}
+_AXIS_DIMENSIONS = {
+    "vin": "voltage",
+    "vout": "voltage",
+    "load": "current",
+    "ambient": "temperature",
+    "fsw": "frequency",
+}
 
 
 def _limit_table(report) -> str:
     rows = []
     for r in report.rows:
-        where = ", ".join(f"{k} {format_quantity(v, _AXIS_DIMENSIONS.get(k, 'number'), digits=3)}"
-                          for k, v in r.where.items())
-        margin = (f"{r.margin * 100:.1f} %" if r.margin_unit == "fraction"
-                  else f"{r.margin:.3g} {r.margin_unit}")
-        rows.append((r.part, r.quantity, f"{r.worst:.4g} {r.unit}", where,
-                     f"{r.design_limit:.4g}", f"{r.absolute_limit:.4g}", margin, r.status))
-    return aligned_table(("part", "limit", "worst", "where", "design limit", "absolute",
-                          "margin", "status"), rows, indent="  ")
+        where = ", ".join(
+            f"{k} {format_quantity(v, _AXIS_DIMENSIONS.get(k, 'number'), digits=3)}"
+            for k, v in r.where.items()
+        )
+        margin = (
+            f"{r.margin * 100:.1f} %"
+            if r.margin_unit == "fraction"
+            else f"{r.margin:.3g} {r.margin_unit}"
+        )
+        rows.append(
+            (
+                r.part,
+                r.quantity,
+                f"{r.worst:.4g} {r.unit}",
+                where,
+                f"{r.design_limit:.4g}",
+                f"{r.absolute_limit:.4g}",
+                margin,
+                r.status,
+            )
+        )
+    return aligned_table(
+        ("part", "limit", "worst", "where", "design limit", "absolute", "margin", "status"),
+        rows,
+        indent="  ",
+    )
 
 
 @click.command("demo")
-@click.option("--out", type=click.Path(file_okay=False, path_type=Path),
-              default=Path("lossbudget-demo"), show_default=True,
-              help="Folder for the plots, tables and workbook (created if missing).")
+@click.option(
+    "--out",
+    type=click.Path(file_okay=False, path_type=Path),
+    default=Path("lossbudget-demo"),
+    show_default=True,
+    help="Folder for the plots, tables and workbook (created if missing).",
+)
 @reports_bad_input
 def demo_command(out: Path) -> None:
     """The whole job on the embedded demo design (a warehouse cart's motor-bus boost):
@@ -357,9 +483,15 @@ def demo_command(out: Path) -> None:
     click.echo(point_report(solve(d, vin=op.vin.nom, load_fraction=1.0)))
     click.echo("")
     click.echo("== efficiency map ==")
-    run = run_map(d, vin=vin_axis(d, None), load=load_points(d, load=None, load_pct=None,
-                                                              log_load=False),
-                  ambient=None, out=out, fmt="png", long_table=False)
+    run = run_map(
+        d,
+        vin=vin_axis(d, None),
+        load=load_points(d, load=None, load_pct=None, log_load=False),
+        ambient=None,
+        out=out,
+        fmt="png",
+        long_table=False,
+    )
     click.echo(map_report(d, run, cautions=False, files=False))
     files = list(run.files)
     report = None
@@ -370,17 +502,28 @@ def demo_command(out: Path) -> None:
         click.echo("note: limit check skipped (lossbudget.limits is not available)")
     else:
         report = check_limits(d)
-        click.echo(f"== limit check ({report.corner} part values, derating "
-                   f"{report.derating}): worst status {report.worst_status} ==")
+        click.echo(
+            f"== limit check ({report.corner} part values, derating "
+            f"{report.derating}): worst status {report.worst_status} =="
+        )
         click.echo(_limit_table(report))
     try:
         from lossbudget.output.workbook import write_workbook
     except ImportError:
         click.echo("note: workbook skipped (lossbudget.output.workbook is not available)")
     else:
-        files.append(("workbook", write_workbook(out / "budget.xlsx", budget=run.budget,
-                                                 report=report, weighted=run.weighted,
-                                                 design=d)))
+        files.append(
+            (
+                "workbook",
+                write_workbook(
+                    out / "budget.xlsx",
+                    budget=run.budget,
+                    report=report,
+                    weighted=run.weighted,
+                    design=d,
+                ),
+            )
+        )
     click.echo("")
     click.echo("files:")
     click.echo(aligned_table(("what", "file"), [(w, str(p)) for w, p in files], indent="  "))
