@@ -14,6 +14,37 @@ from dataclasses import dataclass
 
 import numpy as np
 
+# The segment axis is short (a handful of segments) and last, where numpy's reductions and
+# strided views are slow; these helpers reduce it by a matrix-vector product or column by
+# column, and build differences as contiguous arrays.
+
+
+def _segment_sum(x: np.ndarray) -> np.ndarray:
+    """Sum over the last (segment) axis."""
+    x = np.asarray(x, dtype=float)
+    k = x.shape[-1]
+    if k == 0 or x.size == 0:
+        return np.sum(x, axis=-1)
+    return (x.reshape(-1, k) @ np.ones(k)).reshape(x.shape[:-1])
+
+
+def _segment_extreme(x: np.ndarray, pick, empty: float) -> np.ndarray:
+    """np.maximum or np.minimum over the last (segment) axis; ``empty`` when it has none."""
+    if x.shape[-1] == 0:
+        return np.full(x.shape[:-1], empty)
+    out = x[..., 0]
+    for k in range(1, x.shape[-1]):
+        out = pick(out, x[..., k])
+    return out
+
+
+def _boundary_differences(t: np.ndarray) -> np.ndarray:
+    """np.diff over the last axis, as a contiguous array."""
+    t = np.asarray(t, dtype=float)
+    if t.shape[-1] < 2:
+        return np.diff(t, axis=-1)
+    return np.stack([t[..., k + 1] - t[..., k] for k in range(t.shape[-1] - 1)], axis=-1)
+
 
 @dataclass(frozen=True, slots=True)
 class Pwl:
@@ -26,7 +57,7 @@ class Pwl:
     @property
     def durations(self) -> np.ndarray:
         """Fraction of the period each segment lasts. [-]"""
-        return np.diff(self.t, axis=-1)
+        return _boundary_differences(self.t)
 
     def mean(self) -> np.ndarray:
         """Average value over the period (the DC component)."""
@@ -38,7 +69,8 @@ class Pwl:
 
     def ripple_square(self) -> np.ndarray:
         """Mean square less the mean square of each segment's mean: Σ d·(b − a)²/12."""
-        return np.sum(self.durations * (self.end - self.start) ** 2, axis=-1) / 12.0
+        rise = self.end - self.start
+        return _segment_sum(self.durations * (rise * rise)) / 12.0
 
     def rms(self) -> np.ndarray:
         """RMS value over the period."""
@@ -46,11 +78,11 @@ class Pwl:
 
     def peak(self) -> np.ndarray:
         """Highest value reached over the period."""
-        return np.maximum(self.start, self.end).max(axis=-1, initial=-np.inf)
+        return _segment_extreme(np.maximum(self.start, self.end), np.maximum, -np.inf)
 
     def trough(self) -> np.ndarray:
         """Lowest value reached over the period."""
-        return np.minimum(self.start, self.end).min(axis=-1, initial=np.inf)
+        return _segment_extreme(np.minimum(self.start, self.end), np.minimum, np.inf)
 
     def shifted(self, offset: np.ndarray) -> Pwl:
         """The waveform with ``offset`` added at every point (broadcast over operating points)."""
@@ -99,7 +131,7 @@ def average_pwl(durations, start, end):
     .. [1] R. W. Erickson, D. Maksimović, Fundamentals of Power Electronics, 2nd ed., Kluwer,
        2001, Appendix A (averages of piecewise-linear converter waveforms).
     """
-    return np.sum(durations * (start + end) * 0.5, axis=-1)
+    return _segment_sum(np.asarray(durations) * (np.asarray(start) + end)) * 0.5
 
 
 def mean_square_pwl(durations, start, end):
@@ -127,7 +159,9 @@ def mean_square_pwl(durations, start, end):
     .. [1] R. W. Erickson, D. Maksimović, Fundamentals of Power Electronics, 2nd ed., Kluwer,
        2001, Appendix A, "RMS values of commonly observed converter waveforms".
     """
-    return np.sum(durations * (start * start + start * end + end * end) / 3.0, axis=-1)
+    start = np.asarray(start)
+    end = np.asarray(end)
+    return _segment_sum(np.asarray(durations) * (start * start + start * end + end * end)) / 3.0
 
 
 def harmonic_rms_pwl(t, start, end, *, n_max):
@@ -236,7 +270,7 @@ def derivative_mean_square_pwl(durations, start, end):
     d = np.asarray(durations, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
         terms = np.where(d > 0, (np.asarray(end) - np.asarray(start)) ** 2 / d, 0.0)
-    return terms.sum(axis=-1)
+    return _segment_sum(terms)
 
 
 def integral_extremes_pwl(t, start, end):
@@ -268,12 +302,18 @@ def integral_extremes_pwl(t, start, end):
     t = np.asarray(t, dtype=float)
     a = np.asarray(start, dtype=float)
     b = np.asarray(end, dtype=float)
-    d = np.diff(t, axis=-1)
+    d = _boundary_differences(t)
     seg_int = d * (a + b) * 0.5
-    q_start = np.concatenate([np.zeros_like(seg_int[..., :1]), np.cumsum(seg_int, axis=-1)], -1)
     # zero crossing inside a segment: x = a + (b - a)·s, s in (0, 1)
     with np.errstate(divide="ignore", invalid="ignore"):
         s = np.where((a * b < 0) & (a != b), a / (a - b), 0.0)
-    q_cross = q_start[..., :-1] + d * (a * s + 0.5 * (b - a) * s * s)
-    cand = np.concatenate([q_start, q_cross], axis=-1)
-    return cand.max(axis=-1) - cand.min(axis=-1)
+    cross_int = d * (a * s + 0.5 * (b - a) * s * s)
+    # running integral at each boundary and at each crossing, extremes kept as it goes
+    q = np.zeros(seg_int.shape[:-1])
+    hi = lo = q
+    for k in range(seg_int.shape[-1]):
+        q_cross = q + cross_int[..., k]
+        q = q + seg_int[..., k]
+        hi = np.maximum(np.maximum(hi, q_cross), q)
+        lo = np.minimum(np.minimum(lo, q_cross), q)
+    return hi - lo
