@@ -282,8 +282,18 @@ def _supply_voltage(ctx: _Context, vin_eff, vc):
     return np.full(np.shape(vc), drv.v_aux if drv.v_aux is not None else drv.v_drive)
 
 
-def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
-    """Switching-edge losses of both devices (SPEC §2.3), energies × fsw."""
+def _no_reason(*_):
+    """Stands in for np.where where the zero reasons are not wanted."""
+    return None
+
+
+def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
+    """Switching-edge losses of both devices (SPEC §2.3), energies × fsw.
+
+    The zero reasons are strings over every point; ``reasons=False`` (the thermal and
+    intermediate passes, which never report them) leaves them None.
+    """
+    pick = np.where if reasons else _no_reason
     sw, rc = ctx.sw, ctx.rect
     drv = ctx.design.driver
     dcm = st.dcm
@@ -322,8 +332,8 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
     else:
         e_on = mos.turn_on_energy(v, np.maximum(i_v, 0.0), t_ri=t_ri, t_fv=t_fv)
     out["switch", "turn_on"] = np.where(hard_on, e_on, 0.0) * fsw
-    zero["switch", "turn_on"] = np.where(
-        dcm, "zero-current turn-on (DCM)", np.where(reversed_, "reversed current at turn-on", "")
+    zero["switch", "turn_on"] = pick(
+        dcm, "zero-current turn-on (DCM)", pick(reversed_, "reversed current at turn-on", "")
     )
     # main switch turn-off at the peak current
     if sw.eoff is not None:
@@ -333,7 +343,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
     else:
         e_off = mos.turn_off_energy(v, i_pk, t_rv=t_rv, t_fi=t_fi, q_node=q_node)
     out["switch", "turn_off"] = e_off * fsw
-    zero["switch", "turn_off"] = np.where(e_off == 0, "capacitive turn-off (slow node)", "")
+    zero["switch", "turn_off"] = pick(e_off == 0, "capacitive turn-off (slow node)", "")
     # node charge at the main switch's turn-on
     coss_given = sw.a is not None
     if coss_given:
@@ -359,9 +369,9 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
         if "coss" in sw.includes:
             e_coss = np.zeros_like(e_coss)
         out["switch", "coss"] = e_coss * fsw
-        zero["switch", "coss"] = np.where(
+        zero["switch", "coss"] = pick(
             e_coss == 0,
-            np.where(
+            pick(
                 reversed_,
                 "soft turn-on: reversed current swings the node",
                 "included in switch.eon" if "coss" in sw.includes else "no voltage at turn-on",
@@ -380,10 +390,10 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
             e_s = np.zeros_like(e_s)
         out["rectifier", "reverse_recovery"] = e_d * fsw
         out["switch", "reverse_recovery"] = e_s * fsw
-        why = np.where(
+        why = pick(
             dcm,
             "no forward current at turn-on (DCM)",
-            np.where(reversed_, "body diode not conducting (reversed current)", ""),
+            pick(reversed_, "body diode not conducting (reversed current)", ""),
         )
         zero["rectifier", "reverse_recovery"] = why
         zero["switch", "reverse_recovery"] = why
@@ -405,10 +415,10 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
         _ = ig_on_r
         e_off_r = mos.turn_off_energy(v, np.abs(i_v), t_rv=t_rv_r, t_fi=t_fi_r, q_node=q_node)
         out["rectifier", "turn_off"] = np.where(reversed_, e_off_r, 0.0) * fsw
-        zero["rectifier", "turn_off"] = np.where(
+        zero["rectifier", "turn_off"] = pick(
             reversed_,
-            np.where(e_off_r == 0, "capacitive turn-off (slow node)", ""),
-            np.where(
+            pick(e_off_r == 0, "capacitive turn-off (slow node)", ""),
+            pick(
                 dcm, "zero-current turn-off (diode emulation)", "body diode clamps the turn-off"
             ),
         )
@@ -420,7 +430,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
                 v, v_residual=v_r, a_self=a_op, a_opp=a_sw, ae_self=ae_op, ae_opp=ae_sw
             )
             out["rectifier", "coss"] = e_sync * fsw
-            zero["rectifier", "coss"] = np.where(
+            zero["rectifier", "coss"] = pick(
                 e_sync == 0, "node swings within the dead time", ""
             )
         if t_dead is not None and rc.vsd_v is not None:
@@ -429,7 +439,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
             e1 = mos.dead_time_energy(vsd_r, i=i_pk, t_conduct=t1)
             e2 = np.where(hard_on, mos.dead_time_energy(vsd_r, i=i_v, t_conduct=t_dead), 0.0)
             out["rectifier", "dead_time"] = (e1 + e2) * fsw
-            zero["rectifier", "dead_time"] = np.where(
+            zero["rectifier", "dead_time"] = pick(
                 e1 + e2 == 0, "node swing fills the dead time", ""
             )
             if sw.vsd_v is not None:
@@ -437,7 +447,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
                 t2 = mos.body_diode_conduction_time(t_dead, i=np.abs(i_v), q_node=q_node)
                 e3 = np.where(reversed_, mos.dead_time_energy(vsd_s, i=i_v, t_conduct=t2), 0.0)
                 out["switch", "dead_time"] = e3 * fsw
-                zero["switch", "dead_time"] = np.where(e3 == 0, "current not reversed", "")
+                zero["switch", "dead_time"] = pick(e3 == 0, "current not reversed", "")
             dead = {"t1": t1, "t2": np.where(hard_on, t_dead, 0.0)}
         else:
             dead = None
@@ -446,8 +456,11 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r):
     return out, zero, dead
 
 
-def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps):
-    """ESR losses of the banks at one position sharing a ripple current by impedance."""
+def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps, full=True):
+    """ESR losses of the banks at one position sharing a ripple current by impedance.
+
+    With ``full=False`` only the losses: no RMS currents, no voltage ripple.
+    """
     idx = [k for k, c in enumerate(ctx.caps) if c.position == position]
     if not idx:
         return {}, {}, None
@@ -491,6 +504,8 @@ def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps):
             ms_k = np.sum(harm * harm * share, axis=-1) + tail * share[..., -1]
             losses[ctx.caps[k].name, "esr"] = esr[j] * ms_k
             rms[ctx.caps[k].name] = np.sqrt(ms_k)
+    if not full:
+        return losses, {}, None
     c_total = sum(cap)
     esr_par = 1.0 / sum(1.0 / e for e in esr)
     ripple = integral_extremes_pwl(
@@ -537,7 +552,10 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
     p_extra = np.zeros(shape)
     l_stage = ctx.l / ind.count
     slow = None
-    for step in range(INNER_STEPS if full else INNER_STEPS_THERMAL):
+    steps = INNER_STEPS if full else INNER_STEPS_THERMAL
+    for step in range(steps):
+        # what only the reported point needs (reasons, ripple, stresses): the last full pass
+        report = full and step == steps - 1
         st = stage_fn(
             vin=vin_eff,
             vc=vc,
@@ -555,12 +573,12 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
             min_off_time=op.min_off_time,
         )
         v = v_edge_of(vin_eff)
-        edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r)
+        edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, reasons=report)
         # the slow losses (harmonics) once per thermal step; every pass in the final
         # evaluation, so its stresses and rows belong to the reported operating point
         if step == 0 or slow is None or full:
             slow = _slow_losses(
-                ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=full
+                ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report
             )
         # the volt-second balance carries each resistive drop at its interval's mean current;
         # the ripple's share of the I²R losses is drawn at the edges like the others
@@ -594,16 +612,19 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
     zeros.update(slow["zero"])
     # series resistors
     i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
+    # mean squares only at the positions that hold a resistor
     ms_at = {
-        "input": i_in_total**2,
-        "switch": st.i_switch.mean_square(),
-        "rectifier": st.i_rect.mean_square(),
-        "inductor": st.i_l.mean_square(),
-        "output": st.i_out_wave.mean_square(),
-        "load": g.load**2,
+        "input": lambda: i_in_total**2,
+        "switch": st.i_switch.mean_square,
+        "rectifier": st.i_rect.mean_square,
+        "inductor": st.i_l.mean_square,
+        "output": st.i_out_wave.mean_square,
+        "load": lambda: g.load**2,
     }
     for res in d.resistors:
-        losses[res.name, "conduction"] = res.r.pick(ctx.corner) / res.count * ms_at[res.position]
+        losses[res.name, "conduction"] = (
+            res.r.pick(ctx.corner) / res.count * ms_at[res.position]()
+        )
     v_supply = _supply_voltage(ctx, vin_eff, vc)
     losses["driver", "gate_drive"] = mos.gate_drive_power(qg_total, v_supply=v_supply, fsw=g.fsw)
     if np.isfinite(d.driver.quiescent):
@@ -731,10 +752,24 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
             doubling=dbl,
         )
     cin, rms_in, _ = _cap_losses(
-        ctx, st, position="input", wave=st.i_in_wave, v_dc=vin_eff, fsw=g.fsw, temps=temps
+        ctx,
+        st,
+        position="input",
+        wave=st.i_in_wave,
+        v_dc=vin_eff,
+        fsw=g.fsw,
+        temps=temps,
+        full=full,
     )
     cout, rms_out, ripple = _cap_losses(
-        ctx, st, position="output", wave=st.i_out_wave, v_dc=vc, fsw=g.fsw, temps=temps
+        ctx,
+        st,
+        position="output",
+        wave=st.i_out_wave,
+        v_dc=vc,
+        fsw=g.fsw,
+        temps=temps,
+        full=full,
     )
     out.update(cin)
     out.update(cout)
