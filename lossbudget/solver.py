@@ -515,7 +515,20 @@ def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps, full=Tru
     return losses, rms, ripple
 
 
-def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bool = True):
+def _evaluate(
+    ctx: _Context,
+    g: _Grid,
+    temps: dict[str, np.ndarray],
+    *,
+    full: bool = True,
+    probe: bool = False,
+):
+    """Every loss at given node temperatures: an _Evaluation, or the node powers (not full).
+
+    ``probe`` runs the passes of a full evaluation only as far as the last stage solve, which
+    tells the infeasible points, and returns that stage with the node powers a thermal
+    evaluation (not full) at the same temperatures returns, which its first passes share.
+    """
     d = ctx.design
     sw, rc = ctx.sw, ctx.rect
     shape = g.vin.shape
@@ -551,7 +564,76 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
     vin_eff = g.vin
     p_extra = np.zeros(shape)
     l_stage = ctx.l / ind.count
-    slow = None
+
+    def tally(st, edge, zero, dead, slow, vin_eff):
+        """The losses of one pass and the node powers they heat."""
+        losses: dict[tuple[str, str], np.ndarray] = {}
+        zeros: dict[tuple[str, str], np.ndarray] = dict(zero)
+        # conduction
+        losses["switch", "conduction"] = mos.conduction_loss(rds_sw, i_rms=st.i_switch.rms())
+        if ctx.sync:
+            ms = st.i_rect.mean_square()
+            if dead is not None:
+                ms = ms - (st.i_pk**2 * dead["t1"] + st.i_valley**2 * dead["t2"]) * g.fsw
+            losses["rectifier", "conduction"] = r_rc * np.maximum(ms, 0.0)
+        else:
+            losses["rectifier", "forward"] = dio.forward_loss(
+                vf0, r_rc, i_avg=st.i_rect.mean(), i_rms=st.i_rect.rms()
+            )
+        losses["inductor", "copper_dc"] = dcr * st.i_l.mean_square()
+        losses.update(edge)
+        losses.update(slow["losses"])
+        zeros.update(slow["zero"])
+        # series resistors
+        i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
+        # mean squares only at the positions that hold a resistor
+        ms_at = {
+            "input": lambda: i_in_total**2,
+            "switch": st.i_switch.mean_square,
+            "rectifier": st.i_rect.mean_square,
+            "inductor": st.i_l.mean_square,
+            "output": st.i_out_wave.mean_square,
+            "load": lambda: g.load**2,
+        }
+        for res in d.resistors:
+            losses[res.name, "conduction"] = (
+                res.r.pick(ctx.corner) / res.count * ms_at[res.position]()
+            )
+        v_supply = _supply_voltage(ctx, vin_eff, vc)
+        losses["driver", "gate_drive"] = mos.gate_drive_power(
+            qg_total, v_supply=v_supply, fsw=g.fsw
+        )
+        if np.isfinite(d.driver.quiescent):
+            losses["controller", "quiescent"] = i_q * v_supply
+        # node powers: each part's losses, plus the gate energy burnt in its internal resistance
+        share_sw = mos.gate_resistance_share(
+            rg=sw.rg,
+            r_source=d.driver.r_source,
+            rg_on=d.driver.rg_on,
+            r_sink=d.driver.r_sink,
+            rg_off=d.driver.rg_off,
+        )
+        node_power = np.zeros((*shape, len(ctx.nodes)))
+        for (comp, _), val in losses.items():
+            if comp in ctx.nodes:
+                node_power[..., ctx.nodes.index(comp)] += val
+        node_power[..., ctx.nodes.index("switch")] += (
+            sw.qg * sw.count * g.fsw * d.driver.v_drive * share_sw
+        )
+        if ctx.sync:
+            share_rc = mos.gate_resistance_share(
+                rg=rc.rg,
+                r_source=d.driver.r_source,
+                rg_on=d.driver.rg_on,
+                r_sink=d.driver.r_sink,
+                rg_off=d.driver.rg_off,
+            )
+            node_power[..., ctx.nodes.index("rectifier")] += (
+                rc.qg * rc.count * g.fsw * d.driver.v_drive * share_rc
+            )
+        return losses, zeros, i_in_total, node_power
+
+    slow = slow_first = thermal = None
     steps = INNER_STEPS if full else INNER_STEPS_THERMAL
     for step in range(steps):
         # what only the reported point needs (reasons, ripple, stresses): the last full pass
@@ -572,14 +654,25 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
             min_on_time=op.min_on_time,
             min_off_time=op.min_off_time,
         )
+        if probe and step == steps - 1:
+            return st, thermal
         v = v_edge_of(vin_eff)
         edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, reasons=report)
+        i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
+        # an infeasible point keeps its first, finite inputs so that its reason stays the
+        # stage's own (NaN would turn every check false)
+        vin_next = np.where(np.isfinite(i_in_total), g.vin - rp["input"] * i_in_total, g.vin)
         # the slow losses (harmonics) once per thermal step; every pass in the final
         # evaluation, so its stresses and rows belong to the reported operating point
         if step == 0 or slow is None or full:
             slow = _slow_losses(
                 ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report
             )
+        if step == 0:
+            slow_first = slow
+        if probe and step == INNER_STEPS_THERMAL - 1:
+            # a thermal evaluation ends here, with the slow losses of its first pass
+            thermal = tally(st, edge, zero, dead, slow_first, vin_next)[-1]
         # the volt-second balance carries each resistive drop at its interval's mean current;
         # the ripple's share of the I²R losses is drawn at the edges like the others
         p_ripple = (
@@ -588,73 +681,9 @@ def _evaluate(ctx: _Context, g: _Grid, temps: dict[str, np.ndarray], *, full: bo
             + r_l * st.i_l.ripple_square()
         )
         p_new = sum(edge.values()) + sum(slow["losses"].values()) + p_ripple
-        i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
-        # an infeasible point keeps its first, finite inputs so that its reason stays the
-        # stage's own (NaN would turn every check false)
-        vin_eff = np.where(np.isfinite(i_in_total), g.vin - rp["input"] * i_in_total, g.vin)
+        vin_eff = vin_next
         p_extra = np.where(np.isfinite(p_new), p_new, 0.0)
-    losses: dict[tuple[str, str], np.ndarray] = {}
-    zeros: dict[tuple[str, str], np.ndarray] = dict(zero)
-    # conduction
-    losses["switch", "conduction"] = mos.conduction_loss(rds_sw, i_rms=st.i_switch.rms())
-    if ctx.sync:
-        ms = st.i_rect.mean_square()
-        if dead is not None:
-            ms = ms - (st.i_pk**2 * dead["t1"] + st.i_valley**2 * dead["t2"]) * g.fsw
-        losses["rectifier", "conduction"] = r_rc * np.maximum(ms, 0.0)
-    else:
-        losses["rectifier", "forward"] = dio.forward_loss(
-            vf0, r_rc, i_avg=st.i_rect.mean(), i_rms=st.i_rect.rms()
-        )
-    losses["inductor", "copper_dc"] = dcr * st.i_l.mean_square()
-    losses.update(edge)
-    losses.update(slow["losses"])
-    zeros.update(slow["zero"])
-    # series resistors
-    i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
-    # mean squares only at the positions that hold a resistor
-    ms_at = {
-        "input": lambda: i_in_total**2,
-        "switch": st.i_switch.mean_square,
-        "rectifier": st.i_rect.mean_square,
-        "inductor": st.i_l.mean_square,
-        "output": st.i_out_wave.mean_square,
-        "load": lambda: g.load**2,
-    }
-    for res in d.resistors:
-        losses[res.name, "conduction"] = (
-            res.r.pick(ctx.corner) / res.count * ms_at[res.position]()
-        )
-    v_supply = _supply_voltage(ctx, vin_eff, vc)
-    losses["driver", "gate_drive"] = mos.gate_drive_power(qg_total, v_supply=v_supply, fsw=g.fsw)
-    if np.isfinite(d.driver.quiescent):
-        losses["controller", "quiescent"] = i_q * v_supply
-    # node powers: each part's losses, plus the gate energy burnt in its internal resistance
-    share_sw = mos.gate_resistance_share(
-        rg=sw.rg,
-        r_source=d.driver.r_source,
-        rg_on=d.driver.rg_on,
-        r_sink=d.driver.r_sink,
-        rg_off=d.driver.rg_off,
-    )
-    node_power = np.zeros((*shape, len(ctx.nodes)))
-    for (comp, _), val in losses.items():
-        if comp in ctx.nodes:
-            node_power[..., ctx.nodes.index(comp)] += val
-    node_power[..., ctx.nodes.index("switch")] += (
-        sw.qg * sw.count * g.fsw * d.driver.v_drive * share_sw
-    )
-    if ctx.sync:
-        share_rc = mos.gate_resistance_share(
-            rg=rc.rg,
-            r_source=d.driver.r_source,
-            rg_on=d.driver.rg_on,
-            r_sink=d.driver.r_sink,
-            rg_off=d.driver.rg_off,
-        )
-        node_power[..., ctx.nodes.index("rectifier")] += (
-            rc.qg * rc.count * g.fsw * d.driver.v_drive * share_rc
-        )
+    losses, zeros, i_in_total, node_power = tally(st, edge, zero, dead, slow, vin_eff)
     if not full:
         return node_power
     aux = d.driver.supply == "aux"
@@ -1029,10 +1058,13 @@ def _temps_dict(ctx: _Context, temps: np.ndarray) -> dict[str, np.ndarray]:
 def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     n = g.vin.size
     amb = np.repeat(g.ambient[:, None], len(ctx.nodes), axis=1)
-    first = _evaluate(ctx, g, _temps_dict(ctx, amb))
-    infeasible = first.stage.infeasible.copy()
-    reason = first.stage.reason.astype(object).copy()
+    # the stage at the ambient tells the infeasible points; its first passes are also the
+    # coupled solve's first step, which starts from the ambient
+    first, power_at_ambient = _evaluate(ctx, g, _temps_dict(ctx, amb), probe=True)
+    infeasible = first.infeasible.copy()
+    reason = first.reason.astype(object).copy()
     ok = np.flatnonzero(~infeasible)
+    start = {"power": power_at_ambient[ok], "temps": amb[ok]}
     # nodes whose temperature changes some loss: the semiconductors and the winding always,
     # a capacitor bank only where its ESR is given over temperature
     heated = [ctx.nodes.index(p) for p in ("switch", "rectifier", "inductor")] + [
@@ -1040,6 +1072,9 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     ]
 
     def power_of(temps, index):
+        if start and index.size == ok.size and np.array_equal(temps, start["temps"]):
+            return start.pop("power")
+        start.clear()
         sub = g.take(ok[index])
         return _evaluate(ctx, sub, _temps_dict(ctx, temps), full=False)
 
