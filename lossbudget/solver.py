@@ -1108,9 +1108,33 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     infeasible |= late
     reason = np.where(late, ev.stage.reason, reason)
     flags = {"infeasible": infeasible, "runaway": runaway, "not_converged": not_conv}
+    # keep of a chunk only what the budget reports, so that a large map fits in memory: the
+    # stage's duty, D2 and mode without its waveforms, each zero reason as references to a
+    # few shared strings instead of a wide string per point
+    st = ev.stage
+    ev.stage = _StageSummary(duty=st.duty, d2=st.d2, dcm=st.dcm)
+    ev.zero = {k: _shared_strings(v) for k, v in ev.zero.items()}
     return _Chunk(
         ev=ev, temps=temps, flags=flags, reason=reason, loop_gain=gain, pout=g.vout * g.load
     )
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class _StageSummary:
+    duty: np.ndarray
+    d2: np.ndarray
+    dcm: np.ndarray
+
+
+def _shared_strings(values):
+    """An array of strings as an object array whose equal entries share one string."""
+    values = np.asarray(values)
+    if values.ndim == 0 or values.dtype.kind not in "UO":
+        return values
+    labels, codes = np.unique(values, return_inverse=True)
+    shared = np.empty(labels.size, dtype=object)
+    shared[:] = labels.tolist()
+    return shared[codes].reshape(values.shape)
 
 
 def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vout, corner):
