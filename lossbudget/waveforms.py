@@ -187,9 +187,9 @@ def harmonic_rms_pwl(t, start, end, *, n_max):
     impulses at its jumps J_k, so with ω = 2πn and E_k = e^(−jω t_k) its coefficient is
     c_n[x'] = Σ_k E_k·[(s_k − s_(k−1))/(jω) + J_k] and c_n[x] = c_n[x']/(jω). A segment of zero
     length counts as a jump. The phases are taken from t_0 (a common time shift leaves |c_n|
-    unchanged), E_k from the tangent of the half angle, and E_k^n by products that double the
-    block of known powers (at most ⌈log2 n⌉ + 1 rounding steps each). The RMS of the real
-    harmonic is √2·|c_n|; Parseval: Σ_n I_n² = <x²> − <x>².
+    unchanged), E_k from the tangent of the half angle, and E_k^n by repeated multiplication,
+    one harmonic at a time. The RMS of the real harmonic is √2·|c_n|; Parseval:
+    Σ_n I_n² = <x²> − <x>².
 
     References
     ----------
@@ -215,30 +215,33 @@ def harmonic_rms_pwl(t, start, end, *, n_max):
     jump = start - np.roll(end, 1, axis=0) + np.where(long, 0.0, end - start)
     ds = slope - np.roll(slope, 1, axis=0)
     # E_k = e^(-j 2 pi (t_k - t_0)) from u = tan(pi (t_k - t_0)); E_0 = 1
-    powers = np.empty((n_max, k - 1, npt), dtype=complex)
-    parts = powers.view(float).reshape(n_max, k - 1, npt, 2)
+    e = np.empty((k - 1, npt), dtype=complex)
+    parts = e.view(float).reshape(k - 1, npt, 2)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         u = np.tan(np.pi * (t[1:-1] - t[0]))
         u2 = u * u
         inv = 1.0 / (1.0 + u2)
-    np.multiply(1.0 - u2, inv, out=parts[0, ..., 0])
-    np.multiply(-2.0 * u, inv, out=parts[0, ..., 1])
-    # E^(m+i) = E^i·E^m: the block of powers doubles at each product
-    m = 1
-    while m < n_max:
-        q = min(m, n_max - m)
-        np.multiply(powers[:q], powers[m - 1], out=powers[m : m + q])
-        m += q
-    flat = powers.view(float)
-    sum_ds = np.einsum("nkp,kp->np", flat, np.repeat(ds[1:], 2, axis=-1)).reshape(n_max, npt, 2)
-    sum_jump = np.einsum("nkp,kp->np", flat, np.repeat(jump[1:], 2, axis=-1)).reshape(
-        n_max, npt, 2
-    )
-    w_inv = (1.0 / (2.0 * np.pi * np.arange(1, n_max + 1)))[:, None]
-    # c_n = (sum_jump + J_0) - j (sum_ds + ds_0)/omega, real and imaginary parts
-    re = sum_jump[..., 0] + jump[0] + sum_ds[..., 1] * w_inv
-    im = sum_jump[..., 1] - (sum_ds[..., 0] + ds[0]) * w_inv
-    return (np.sqrt(2.0 * (re * re + im * im)) * w_inv).T.reshape(*lead, n_max)
+    np.multiply(1.0 - u2, inv, out=parts[..., 0])
+    np.multiply(-2.0 * u, inv, out=parts[..., 1])
+    # real and imaginary parts side by side, so that each weight is repeated twice
+    ds_w = np.repeat(ds[1:], 2, axis=-1)
+    jump_w = np.repeat(jump[1:], 2, axis=-1)
+    out = np.empty((n_max, npt))
+    power = e.copy()
+    flat = power.view(float)
+    # harmonic by harmonic, on arrays the size of the points (they stay in cache)
+    for n in range(1, n_max + 1):
+        if n > 1:
+            power *= e
+        sum_ds = np.einsum("kp,kp->p", flat, ds_w).reshape(npt, 2)
+        sum_jump = np.einsum("kp,kp->p", flat, jump_w).reshape(npt, 2)
+        w_inv = 1.0 / (2.0 * np.pi * n)
+        # c_n = (sum_jump + J_0) - j (sum_ds + ds_0)/omega, real and imaginary parts
+        re = sum_jump[:, 0] + jump[0] + sum_ds[:, 1] * w_inv
+        im = sum_jump[:, 1] - (sum_ds[:, 0] + ds[0]) * w_inv
+        np.sqrt(2.0 * (re * re + im * im), out=out[n - 1])
+        out[n - 1] *= w_inv
+    return out.T.reshape(*lead, n_max)
 
 
 def derivative_mean_square_pwl(durations, start, end):
