@@ -287,6 +287,27 @@ def _no_reason(*_):
     return None
 
 
+def _gate_timing(fet: _Fet, drv) -> tuple:
+    """Transition times (t_ri, t_fv, t_rv, t_fi) of a MOSFET from its gate charges."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ig_on = mos.gate_current_on(
+            v_drive=drv.v_drive,
+            v_plateau=fet.v_plateau,
+            r_source=drv.r_source,
+            rg_on=drv.rg_on,
+            rg=fet.rg,
+        )
+        ig_off = mos.gate_current_off(
+            v_plateau=fet.v_plateau, r_sink=drv.r_sink, rg_off=drv.rg_off, rg=fet.rg
+        )
+        return (
+            mos.transition_time(fet.qgs2, i_gate=ig_on),
+            mos.transition_time(fet.qgd, i_gate=ig_on),
+            mos.transition_time(fet.qgd, i_gate=ig_off),
+            mos.transition_time(fet.qgs2, i_gate=ig_off),
+        )
+
+
 def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
     """Switching-edge losses of both devices (SPEC §2.3), energies × fsw.
 
@@ -307,21 +328,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
     t_dead = drv.dead_time
     out: dict[tuple[str, str], np.ndarray] = {}
     zero: dict[tuple[str, str], np.ndarray] = {}
-    with np.errstate(invalid="ignore", divide="ignore"):
-        ig_on = mos.gate_current_on(
-            v_drive=drv.v_drive,
-            v_plateau=sw.v_plateau,
-            r_source=drv.r_source,
-            rg_on=drv.rg_on,
-            rg=sw.rg,
-        )
-        ig_off = mos.gate_current_off(
-            v_plateau=sw.v_plateau, r_sink=drv.r_sink, rg_off=drv.rg_off, rg=sw.rg
-        )
-        t_ri = mos.transition_time(sw.qgs2, i_gate=ig_on)
-        t_fv = mos.transition_time(sw.qgd, i_gate=ig_on)
-        t_rv = mos.transition_time(sw.qgd, i_gate=ig_off)
-        t_fi = mos.transition_time(sw.qgs2, i_gate=ig_off)
+    t_ri, t_fv, t_rv, t_fi = _gate_timing(sw, drv)
     reversed_ = ~dcm & (i_v < 0)
     hard_on = ~dcm & (i_v > 0)
     # main switch turn-on
@@ -399,20 +406,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
         zero["switch", "reverse_recovery"] = why
     if ctx.sync:
         # the synchronous FET: its body diode clamps both edges unless the current reverses
-        ig_on_r = mos.gate_current_on(
-            v_drive=drv.v_drive,
-            v_plateau=rc.v_plateau,
-            r_source=drv.r_source,
-            rg_on=drv.rg_on,
-            rg=rc.rg,
-        )
-        ig_off_r = mos.gate_current_off(
-            v_plateau=rc.v_plateau, r_sink=drv.r_sink, rg_off=drv.rg_off, rg=rc.rg
-        )
-        with np.errstate(invalid="ignore", divide="ignore"):
-            t_rv_r = mos.transition_time(rc.qgd, i_gate=ig_off_r)
-            t_fi_r = mos.transition_time(rc.qgs2, i_gate=ig_off_r)
-        _ = ig_on_r
+        _, _, t_rv_r, t_fi_r = _gate_timing(rc, drv)
         e_off_r = mos.turn_off_energy(v, np.abs(i_v), t_rv=t_rv_r, t_fi=t_fi_r, q_node=q_node)
         out["rectifier", "turn_off"] = np.where(reversed_, e_off_r, 0.0) * fsw
         zero["rectifier", "turn_off"] = pick(
@@ -692,7 +686,7 @@ def _evaluate(
         if aux
         else 0.0
     )
-    stresses = _stresses(ctx, st, g=g, vc=vc, vin_eff=vin_eff, vf0=vf0, slow=slow, i_in=i_in_total)
+    stresses = _stresses(ctx, st, vc=vc, vin_eff=vin_eff, slow=slow)
     extrap = extrap | slow["extrapolated"]
     return _Evaluation(
         losses=losses,
@@ -813,9 +807,9 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
     }
 
 
-def _stresses(ctx: _Context, st, *, g, vc, vin_eff, vf0, slow, i_in):
+def _stresses(ctx: _Context, st, *, vc, vin_eff, slow):
+    """Per-part stresses (the ringing allowance is added by the limit check)."""
     d = ctx.design
-    v_spike = 0.0
     s: dict[tuple[str, str], np.ndarray] = {}
     for comp, wave, v_blk, count in (
         ("switch", st.i_switch, st.v_switch_block, ctx.sw.count),
@@ -824,7 +818,7 @@ def _stresses(ctx: _Context, st, *, g, vc, vin_eff, vf0, slow, i_in):
         s[comp, "i_avg"] = wave.mean() / count
         s[comp, "i_rms"] = wave.rms() / count
         s[comp, "i_pk"] = wave.peak() / count
-        s[comp, "v_pk"] = v_blk + v_spike
+        s[comp, "v_pk"] = v_blk
     ind = d.inductor
     s["inductor", "i_avg"] = st.i_l.mean() / ind.count
     s["inductor", "i_rms"] = st.i_l.rms() / ind.count
@@ -835,8 +829,7 @@ def _stresses(ctx: _Context, st, *, g, vc, vin_eff, vf0, slow, i_in):
     for c in d.capacitors:
         if c.name in slow["cap_rms"]:
             s[c.name, "i_rms"] = slow["cap_rms"][c.name] / c.count
-        s[c.name, "v_pk"] = (vin_eff if c.position == "input" else vc) + 0.0
-    _ = (g, vf0, i_in)
+        s[c.name, "v_pk"] = vin_eff if c.position == "input" else vc
     return s
 
 
@@ -1176,7 +1169,6 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         for k in pieces[0].ev.stresses
     }
     st = [p.ev.stage for p in pieces]
-    sign = -1.0 if d.topology == "buck-boost" else 1.0
     reason = cat(lambda p: p.reason)
     flags["infeasible"] = flags["infeasible"] | bad_vout.reshape(shape)
     reason = np.where(
@@ -1189,7 +1181,6 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
     flags["reverse_current"] = cat(lambda p: p.ev.reverse_current) & ~bad
     flags["extrapolated"] = cat(lambda p: p.ev.extrapolated) & ~bad
     provenance = _provenance(ctx, corner)
-    _ = sign
     return Budget(
         design_name=d.name,
         topology=d.topology,

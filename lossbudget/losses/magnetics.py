@@ -1019,5 +1019,5 @@ def copper_ac_tail_dowell(rdc: ArrayLike, n2_tail: ArrayLike, *, delta_last: Arr
     .. [2] W. G. Hurley, E. Gath, J. G. Breslin, IEEE Trans. Power Electron., vol. 15, no. 2,
        2000 (the RMS of the derivative carries the harmonic sum weighted by n²).
     """
-    fr = ac_resistance_factor_dowell(delta_last, layers=layers)
-    return np.asarray(rdc) * np.maximum(np.asarray(n2_tail), 0.0) * (fr - 1.0) / (n_last * n_last)
+    excess = _dowell_excess(np.asarray(delta_last, dtype=float), np.asarray(layers, dtype=float))
+    return np.asarray(rdc) * np.maximum(np.asarray(n2_tail), 0.0) * excess / (n_last * n_last)
