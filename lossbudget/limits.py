@@ -179,6 +179,36 @@ def _margins_for(design: Design, derating: str | None) -> tuple[str, dict[tuple[
 # --------------------------------------------------------------------------------------------
 
 
+def temperature_design_limits(design: Design, *, derating: str | None = None
+                              ) -> dict[str, tuple[float, str]]:
+    """Each part's temperature design limit after derating, with the basis of its margin.
+
+    Returns
+    -------
+    dict
+        Part name (thermal node) -> (design limit [degC], the document and status behind it).
+    """
+    _, rows = _margins_for(design, derating)
+    parts: list[tuple[str, str, str, float]] = [
+        ("switch", "diode" if isinstance(design.switch, Diode) else "mosfet", "t_j",
+         design.switch.tj_max),
+        ("rectifier", "diode" if isinstance(design.rectifier, Diode) else "mosfet", "t_j",
+         design.rectifier.tj_max),
+        ("inductor", "inductor", "t_hot", design.inductor.t_max),
+    ]
+    for cap in design.capacitors:
+        kind = "electrolytic" if cap.life is not None else "capacitor"
+        parts.append((cap.name, kind, "t_hot", cap.t_max))
+    out: dict[str, tuple[float, str]] = {}
+    for name, kind, qty, absolute in parts:
+        margin = rows.get((kind, qty))
+        if margin is None:
+            out[name] = (absolute, "absolute limit (no margin in the profile)")
+        else:
+            out[name] = (float(margin.design_limit(absolute)), margin.basis)
+    return out
+
+
 def electrolytic_life_10k(t_hot, *, rated, at):
     """Electrolytic capacitor life at a hot-spot temperature by the 10-kelvin rule.
 

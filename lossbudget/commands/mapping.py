@@ -30,6 +30,7 @@ from lossbudget.commands.common import (
 from lossbudget.commands.point import point_report
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
+from lossbudget.limits import temperature_design_limits
 from lossbudget.output.files import atomic_paths
 from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
@@ -228,7 +229,14 @@ def run_map(
         (
             "temperatures",
             plots.temperature_curves(
-                budget, target["temperatures"], vin=op.vin.nom, rated_load=rated
+                budget,
+                target["temperatures"],
+                vin=op.vin.nom,
+                rated_load=rated,
+                design_limits={
+                    part: value
+                    for part, (value, _) in temperature_design_limits(design).items()
+                },
             ),
         )
     )

@@ -352,6 +352,9 @@ def efficiency_curves(budget: Budget, path, *, vins=None,
         By default up to four rows spread over the map. [V]
     rated_load : float, optional
         Rated output current, for a secondary axis in percent of rated. [A]
+    design_limits : dict, optional
+        Part -> temperature design limit after derating [degC]; drawn instead of the rated
+        limits where given (the rated limit is then named in the line's label).
 
     Returns
     -------
@@ -481,8 +484,9 @@ def loss_breakdown(budget: Budget, path, *, vin=None, rated_load: float | None =
 
 
 def temperature_curves(budget: Budget, path, *, vin=None,
-                       rated_load: float | None = None) -> Path:
-    """Each part's temperature versus load, with its rated limit dashed in the same colour.
+                       rated_load: float | None = None,
+                       design_limits: dict[str, float] | None = None) -> Path:
+    """Each part's temperature versus load, with its limit dashed in the same colour.
 
     Parameters
     ----------
@@ -494,6 +498,9 @@ def temperature_curves(budget: Budget, path, *, vin=None,
         Input voltage; the map row nearest it (the middle row by default). [V]
     rated_load : float, optional
         Rated output current, for a secondary axis in percent of rated. [A]
+    design_limits : dict, optional
+        Part -> temperature design limit after derating [degC]; drawn instead of the rated
+        limits where given (the rated limit is then named in the line's label).
 
     Returns
     -------
@@ -515,21 +522,27 @@ def temperature_curves(budget: Budget, path, *, vin=None,
                 markersize=5, label=p)
     # limit lines: parts sharing a limit alternate their dashes so every colour shows
     limits: dict[float, list[str]] = {}
+    derated = design_limits or {}
     for p in parts:
-        limits.setdefault(float(budget.temperature_limits[p]), []).append(p)
+        limits.setdefault(float(derated.get(p, budget.temperature_limits[p])), []).append(p)
     for value, group in limits.items():
         k = len(group)
         for i, p in enumerate(group):
             ax.axhline(value, color=colour[p], linewidth=1.4,
                        linestyle=(5.0 * i, (5.0, 5.0 * (k - 1) + 1e-9 if k > 1 else 3.0)))
-        ax.text(1.0, value, f" {', '.join(group)}: {_q(value, 'temperature')}",
+        rated = {_q(float(budget.temperature_limits[p]), "temperature") for p in group}
+        label = f" {', '.join(group)}: {_q(value, 'temperature')}"
+        if any(p in derated for p in group):
+            label += f" (rated {', '.join(sorted(rated))})"
+        ax.text(1.0, value, label,
                 transform=ax.get_yaxis_transform(), fontsize=8, va="center", ha="left",
                 color="0.15")
     amb = np.asarray(budget.coords["ambient"])[r]
     ax.plot(load, amb, color="0.45", linewidth=1.0, linestyle="-.", label="ambient")
     handles, _ = ax.get_legend_handles_labels()
     handles.append(Line2D([], [], color="0.3", linestyle="--",
-                          label="rated limit (dashed, same colour)"))
+                          label=("design limit after derating" if derated else "rated limit")
+                          + " (dashed, same colour)"))
     _legend_below(ax, handles, ncols=4)
     hottest = np.nanmax(np.array([budget.temperatures[p][r] for p in parts] or [[0.0]]),
                         initial=0.0)
