@@ -656,9 +656,9 @@ def _evaluate(
         # an infeasible point keeps its first, finite inputs so that its reason stays the
         # stage's own (NaN would turn every check false)
         vin_next = np.where(np.isfinite(i_in_total), g.vin - rp["input"] * i_in_total, g.vin)
-        # the slow losses (harmonics) once per thermal step; every pass in the final
-        # evaluation, so its stresses and rows belong to the reported operating point
-        if step == 0 or slow is None or full:
+        # the slow losses (harmonics) once per thermal step; again on the reported pass of the
+        # final evaluation, so its stresses and rows belong to the reported operating point
+        if step == 0 or slow is None or report:
             slow = _slow_losses(
                 ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report
             )
