@@ -31,6 +31,8 @@ def point_report(budget) -> str:
     ]
     if bool(np.asarray(budget.flagged).ravel()[0]):
         lines.append(f"  not solved: {np.asarray(budget.reason).ravel()[0]}")
+        lines.append("")
+        lines.extend(f"  caution: {text}" for text in CAUTIONS)
         return "\n".join(lines)
     eff = float(np.asarray(budget.efficiency).ravel()[0])
     total = float(np.asarray(budget.total_loss).ravel()[0])

@@ -22,7 +22,8 @@ from lossbudget.output.files import atomic_paths
 from lossbudget.units import format_quantity
 
 FORMATS = (".png", ".svg", ".pdf")
-CAPTION = "Estimates — verify on hardware"
+CAPTION = ("Estimates, not measurements: verify on hardware. Hot parts and high voltages "
+           "hurt people; follow safety standards, local codes and licensed practice.")
 # Okabe & Ito, "Color Universal Design", 2008: blue, orange, bluish green, vermillion,
 # reddish purple, sky blue, yellow (black kept for lines of reference).
 OKABE_ITO = ("#0072B2", "#E69F00", "#009E73", "#D55E00", "#CC79A7", "#56B4E9", "#F0E442")
