@@ -991,6 +991,19 @@ def solve(
     -------
     Budget
         Losses, temperatures, stresses, flags over the broadcast grid.
+
+    Notes
+    -----
+    Duty from the volt-second balance with every conduction drop and the charge balance of
+    the rectifier (boost, buck-boost) or the inductor (buck); losses the balance does not
+    carry are drawn at the edges (derived, SPEC §2.1). Temperatures from the coupled fixed
+    point T = T_a + Z·P(T) from the ambient (REFERENCES §9.5, derived).
+
+    References
+    ----------
+    .. [1] R. W. Erickson, D. Maksimović, Fundamentals of Power Electronics, 2nd ed., Kluwer,
+       2001, ch. 2 (steady state), ch. 3 (loss-inclusive averaged models), ch. 5 (DCM).
+    .. [2] JEDEC JESD51-2, -8, -12 (thermal-resistance definitions of the network).
     """
     return _solve(
         design,
