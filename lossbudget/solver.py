@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from lossbudget.budget import AXES, Budget, MechanismStatus
-from lossbudget.design import Corner, Design, Diode, Mosfet
+from lossbudget.design import Corner, Design, Diode, Mosfet, ScaleFactors
 from lossbudget.errors import DesignError
 from lossbudget.losses import diode as dio
 from lossbudget.losses import magnetics as mag
@@ -155,6 +155,7 @@ class _Context:
     parts: tuple[str, ...]
     network: object
     notes: list[str] = field(default_factory=list)
+    scale: ScaleFactors = field(default_factory=ScaleFactors)
 
 
 def _context(design: Design, corner: Corner) -> _Context:
@@ -192,7 +193,7 @@ def _context(design: Design, corner: Corner) -> _Context:
         sync=sync,
         dcm_allowed=(not sync) or design.light_load == "diode-emulation",
         l=ind.l.pick(corner),
-        dcr=ind.dcr.pick(corner),
+        dcr=ind.dcr.pick(corner) * (design.calibration or ScaleFactors()).copper,
         r_pos=r_pos,
         caps=caps,
         cap_c=tuple(c.c.pick(corner) for c in caps),
@@ -203,6 +204,7 @@ def _context(design: Design, corner: Corner) -> _Context:
         parts=parts,
         network=network,
         notes=notes,
+        scale=design.calibration or ScaleFactors(),
     )
 
 
@@ -231,10 +233,11 @@ def _network(design: Design):
     part("inductor", design.inductor.thermal, design.inductor.count)
     for c in design.capacitors:
         part(c.name, c.thermal, c.count)
+    rth_scale = dict(design.calibration.rth) if design.calibration else {}
     for s in design.sinks:
         nodes.append(s.name)
         if s.rth_to_ambient is not None:
-            res.append((s.name, "ambient", s.rth_to_ambient))
+            res.append((s.name, "ambient", s.rth_to_ambient * rth_scale.get(s.name, 1.0)))
     for link in design.links:
         res.append((link.between[0], link.between[1], link.rth))
     try:
@@ -450,6 +453,16 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
     return out, zero, dead
 
 
+def _calibrated(ctx: _Context, losses: dict) -> dict:
+    """Losses with the design's calibration factors on the edge energies and the core."""
+    k = ctx.scale
+    factor = {"turn_on": k.switching, "turn_off": k.switching, "coss": k.coss}
+    out = {key: val * factor.get(key[1], 1.0) for key, val in losses.items()}
+    if ("inductor", "core") in out:
+        out["inductor", "core"] = out["inductor", "core"] * k.core
+    return out
+
+
 def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps, full=True):
     """ESR losses of the banks at one position sharing a ripple current by impedance.
 
@@ -527,10 +540,11 @@ def _evaluate(
     sw, rc = ctx.sw, ctx.rect
     shape = g.vin.shape
     t_sw, t_r, t_l = temps["switch"], temps["rectifier"], temps["inductor"]
-    rds_sw = mos.rds_on_at(t_sw, t_points=sw.t_points, r_points=sw.r_points) / sw.count
+    k_ch = ctx.scale.conduction
+    rds_sw = mos.rds_on_at(t_sw, t_points=sw.t_points, r_points=sw.r_points) / sw.count * k_ch
     extrap = mos.rds_on_extrapolated(t_sw, t_points=sw.t_points)
     if ctx.sync:
-        r_rc = mos.rds_on_at(t_r, t_points=rc.t_points, r_points=rc.r_points) / rc.count
+        r_rc = mos.rds_on_at(t_r, t_points=rc.t_points, r_points=rc.r_points) / rc.count * k_ch
         extrap = extrap | mos.rds_on_extrapolated(t_r, t_points=rc.t_points)
         vf0 = np.zeros(shape)
     else:
@@ -546,7 +560,7 @@ def _evaluate(
     vc = g.vout + rp["load"] * g.load
     qg_total = sw.qg * sw.count + (rc.qg * rc.count if ctx.sync else 0.0)
     i_gate = qg_total * g.fsw
-    i_q = d.driver.quiescent if np.isfinite(d.driver.quiescent) else 0.0
+    i_q = (d.driver.quiescent if np.isfinite(d.driver.quiescent) else 0.0) * ctx.scale.quiescent
     i_sup = i_gate + i_q
     supply = d.driver.supply
     i_out = g.load + (i_sup if supply == "vout" else 0.0)
@@ -652,6 +666,7 @@ def _evaluate(
             return st, thermal
         v = v_edge_of(vin_eff)
         edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, reasons=report)
+        edge = _calibrated(ctx, edge)
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
         # an infeasible point keeps its first, finite inputs so that its reason stays the
         # stage's own (NaN would turn every check false)
@@ -662,6 +677,7 @@ def _evaluate(
             slow = _slow_losses(
                 ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report
             )
+            slow["losses"] = _calibrated(ctx, slow["losses"])
         if step == 0:
             slow_first = slow
         if probe and step == INNER_STEPS_THERMAL - 1:
@@ -1252,5 +1268,6 @@ def _provenance(ctx: _Context, corner: Corner) -> dict:
         "laws": laws,
         "defaults": [f"{k} = {v}" for k, v in d.defaults],
         "warnings": list(d.warnings),
-        "notes": list(ctx.notes),
+        "notes": ([d.calibration.describe()] if d.calibration else []) + list(ctx.notes),
+        "calibration": d.calibration.describe() if d.calibration else "none",
     }
