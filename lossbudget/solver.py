@@ -208,6 +208,11 @@ def _context(design: Design, corner: Corner) -> _Context:
     )
 
 
+def thermal_nodes(design: Design) -> tuple[str, ...]:
+    """Names of the thermal network's nodes (parts, cases, sinks), as the budget reports them."""
+    return _network(design).nodes
+
+
 def _network(design: Design):
     nodes: list[str] = []
     res: list[tuple[str, str, float]] = []
