@@ -1,8 +1,9 @@
 """lossbudget: efficiency and thermal loss budgets for switched-mode DC-DC converters.
 
 Public API: :func:`load_design`, :func:`solve`, :func:`sweep`, :func:`check_limits`,
-:func:`write_workbook`, :class:`DesignError`. ``import lossbudget`` loads the engine with numpy
-only; scipy, pandas, matplotlib and openpyxl load when a function needs them.
+:func:`write_workbook`, :func:`calibrate`, :class:`DesignError`. ``import lossbudget`` loads
+the engine with numpy only; scipy, pandas, matplotlib, openpyxl and tomlkit load when a
+function needs them.
 """
 
 from __future__ import annotations
@@ -21,6 +22,8 @@ _LAZY = {
     "check_limits": ("lossbudget.limits", "check_limits"),
     "LimitReport": ("lossbudget.limits", "LimitReport"),
     "write_workbook": ("lossbudget.output.workbook", "write_workbook"),
+    "calibrate": ("lossbudget.calibration", "calibrate"),
+    "Calibration": ("lossbudget.calibration", "Calibration"),
 }
 
 
