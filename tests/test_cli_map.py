@@ -17,7 +17,7 @@ from lossbudget.cli import main
 
 DEMO = str(importlib.resources.files("lossbudget") / "data" / "demo.toml")
 SMALL = ["--vin", "18 V:32 V:3", "--load-pct", "10:100:4"]
-PLOTS = ("efficiency_map", "efficiency_curves", "loss_breakdown", "temperatures")
+PLOTS = ("efficiency_map", "efficiency_curves", "loss_breakdown", "temperatures", "loss_bars")
 
 
 @pytest.fixture(autouse=True)

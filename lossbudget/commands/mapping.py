@@ -20,6 +20,7 @@ import click
 import numpy as np
 
 from lossbudget.cautions import CAUTIONS
+from lossbudget.commands.checking import limit_table
 from lossbudget.commands.common import (
     BadInput,
     design_argument,
@@ -507,46 +508,6 @@ def map_command(
     click.echo(map_report(d, run))
 
 
-_AXIS_DIMENSIONS = {
-    "vin": "voltage",
-    "vout": "voltage",
-    "load": "current",
-    "ambient": "temperature",
-    "fsw": "frequency",
-}
-
-
-def _limit_table(report) -> str:
-    rows = []
-    for r in report.rows:
-        where = ", ".join(
-            f"{k} {format_quantity(v, _AXIS_DIMENSIONS.get(k, 'number'), digits=3)}"
-            for k, v in r.where.items()
-        )
-        margin = (
-            f"{r.margin * 100:.1f} %"
-            if r.margin_unit == "fraction"
-            else f"{r.margin:.3g} {r.margin_unit}"
-        )
-        rows.append(
-            (
-                r.part,
-                r.quantity,
-                f"{r.worst:.4g} {r.unit}",
-                where,
-                f"{r.design_limit:.4g}",
-                f"{r.absolute_limit:.4g}",
-                margin,
-                r.status,
-            )
-        )
-    return aligned_table(
-        ("part", "limit", "worst", "where", "design limit", "absolute", "margin", "status"),
-        rows,
-        indent="  ",
-    )
-
-
 @click.command("demo")
 @click.option(
     "--out",
@@ -560,6 +521,7 @@ def demo_command(out: Path) -> None:
     """The whole job on the embedded demo design (a warehouse cart's motor-bus boost):
     the breakdown at the nominal point, the map with its plots and tables, the limit check
     and the workbook."""
+    from lossbudget.output import plots
     from lossbudget.solver import solve
 
     source = importlib.resources.files("lossbudget") / "data" / "demo.toml"
@@ -593,7 +555,8 @@ def demo_command(out: Path) -> None:
             f"== limit check ({report.corner} part values, derating "
             f"{report.derating}): worst status {report.worst_status} =="
         )
-        click.echo(_limit_table(report))
+        click.echo("\n".join(limit_table(report)))
+        files.append(("margin chart", plots.margin_chart(report, out / "margins.png")))
     try:
         from lossbudget.output.workbook import write_workbook
     except ImportError:

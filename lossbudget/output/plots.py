@@ -748,9 +748,7 @@ STATUS_STYLE = {"ok": (OKABE_ITO[2], None), "caution": (OKABE_ITO[1], ".."),
 def _where_label(where: dict) -> str:
     dims = {"vin": "voltage", "vout": "voltage", "load": "current", "ambient": "temperature",
             "fsw": "frequency"}
-    return " · ".join(_q(float(v), dims.get(k, "number")) if k != "ambient"
-                      else f"ambient {_q(float(v), 'temperature')}"
-                      for k, v in where.items() if k in dims)
+    return " · ".join(f"{k} {_q(float(v), dims[k])}" for k, v in where.items() if k in dims)
 
 
 def margin_chart(report, path) -> Path:
