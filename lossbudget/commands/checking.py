@@ -109,8 +109,10 @@ def check_report(report) -> str:
 @click.option(
     "--derating",
     type=click.Choice(["none", "moderate", "conservative", "custom"]),
-    help="Derating profile [-]; default the design's limits.derating. The design's own "
-    "[limits.margins] rows override the rows they name.",
+    help="Derating profile [-]; default the design's limits.derating. none: the absolute "
+    "ratings; moderate, conservative: the built-in tables (each row names its document); "
+    "custom: the design's [limits.margins] rows, moderate for the rows they do not name. A "
+    "named profile ignores the design's [limits.margins].",
 )
 @click.option("--strict", is_flag=True, help="Exit 1 on a caution too, not only on a fail.")
 @click.option(

@@ -1,0 +1,64 @@
+"""Review-ready text outputs: derating rows in one form, limit tables with units, grouped
+reasons, hints on suspicious values (through click's CliRunner)."""
+
+from __future__ import annotations
+
+from importlib import resources
+
+from click.testing import CliRunner
+
+from lossbudget.cli import main
+
+DEMO_PATH = resources.files("lossbudget") / "data" / "demo.toml"
+DEMO = DEMO_PATH.read_text("utf-8")
+
+
+def design_file(tmp_path, *replacements: tuple[str, str], name: str = "cart.toml") -> str:
+    """The demo design with text replaced (each old text must be there), written to tmp_path."""
+    text = DEMO
+    for old, new in replacements:
+        assert old in text, old
+        text = text.replace(old, new)
+    path = tmp_path / name
+    path.write_text(text, encoding="utf-8")
+    return str(path)
+
+
+def run(*args: str):
+    return CliRunner().invoke(main, list(args))
+
+
+NO_PROFILE = ('derating = "moderate"\n', "")
+
+
+def test_a_margin_keyed_by_a_part_name_is_refused_once_by_validate_and_check(tmp_path):
+    table = '\n\n[limits.margins]\nswitch = { v_pk = { use_up_to = "75 %" } }\n'
+    path = design_file(tmp_path, NO_PROFILE, ('v_spike = "6 V"', 'v_spike = "6 V"' + table))
+    for command in ("validate", "check"):
+        result = run(command, path)
+        assert result.exit_code == 2, command
+        lines = result.stderr.strip().splitlines()
+        assert len(lines) == 1, (command, lines)  # once, not twice
+        assert "limits.margins.switch" in lines[0] and "mosfet" in lines[0]
+
+
+def test_use_up_to_is_the_share_of_the_rating(tmp_path):
+    # use_up_to = "75 %" on the demo's 100 V switch: a 75 V design limit (not 25 V)
+    table = ('\n\n[limits.margins]\nmosfet = { v_pk = { use_up_to = "75 %" } }\n')
+    path = design_file(tmp_path, NO_PROFILE, ('v_spike = "6 V"', 'v_spike = "6 V"' + table),
+                       ('i_limit = "16 A"', 'i_limit = "12 A"'))
+    result = run("check", path)
+    line = next(ln for ln in result.stdout.splitlines() if ln.strip().startswith("switch")
+                and " v_pk " in ln)
+    assert "75 V" in line and "100 V" in line
+    assert "derating: custom (moderate for the rows not named)" in result.stdout
+    shown = run("validate", path).stdout
+    assert "use up to 75 % of the rating" in shown
+
+
+def test_check_help_describes_the_profiles_and_custom():
+    text = " ".join(run("check", "-h").stdout.split())
+    assert "custom: the design's [limits.margins] rows, moderate for the rows they do not name" \
+        in text
+    assert "A named profile ignores the design's [limits.margins]" in text
+    assert "override" not in text
