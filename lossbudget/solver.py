@@ -206,25 +206,32 @@ def _context(design: Design, corner: Corner) -> _Context:
     )
 
 
-def _network(design: Design):
-    nodes: list[str] = []
-    res: list[tuple[str, str, float]] = []
+def thermal_paths(design: Design) -> tuple[tuple[str, str, float, str], ...]:
+    """Every resistance of the design's thermal network, with the key it comes from.
+
+    Returns
+    -------
+    tuple
+        (node, node, resistance [K/W], the design key and how it is counted) per path or
+        link; a part of ``count`` parallel devices has its resistances divided by the count.
+    """
+    res: list[tuple[str, str, float, str]] = []
 
     def part(name: str, th, count: int) -> None:
-        nodes.append(name)
+        per = f" / count {count}" if count > 1 else ""
         if th.sink is not None:
             if th.rth_jc is not None and th.rth_cs is not None:
-                nodes.append(f"{name}.case")
-                res.append((name, f"{name}.case", th.rth_jc / count))
-                res.append((f"{name}.case", th.sink, th.rth_cs / count))
+                res.append((name, f"{name}.case", th.rth_jc / count, f"{name}.thermal.rth_jc{per}"))
+                res.append((f"{name}.case", th.sink, th.rth_cs / count,
+                            f"{name}.thermal.rth_cs{per}"))
             elif th.rth_jc is not None:
-                res.append((name, th.sink, th.rth_jc / count))
+                res.append((name, th.sink, th.rth_jc / count, f"{name}.thermal.rth_jc{per}"))
             elif th.rth_jb is not None:
-                res.append((name, th.sink, th.rth_jb / count))
+                res.append((name, th.sink, th.rth_jb / count, f"{name}.thermal.rth_jb{per}"))
         if th.rth_ha is not None:
-            res.append((name, "ambient", th.rth_ha / count))
+            res.append((name, "ambient", th.rth_ha / count, f"{name}.thermal.rth_ha{per}"))
         if th.rth_ja is not None:
-            res.append((name, "ambient", th.rth_ja / count))
+            res.append((name, "ambient", th.rth_ja / count, f"{name}.thermal.rth_ja{per}"))
 
     part("switch", design.switch.thermal, design.switch.count)
     part("rectifier", design.rectifier.thermal, design.rectifier.count)
@@ -232,11 +239,24 @@ def _network(design: Design):
     for c in design.capacitors:
         part(c.name, c.thermal, c.count)
     for s in design.sinks:
-        nodes.append(s.name)
         if s.rth_to_ambient is not None:
-            res.append((s.name, "ambient", s.rth_to_ambient))
+            res.append((s.name, "ambient", s.rth_to_ambient,
+                        f"thermal.sink {s.name}: rth_to_ambient"))
     for link in design.links:
-        res.append((link.between[0], link.between[1], link.rth))
+        res.append((link.between[0], link.between[1], link.rth, "thermal.link"))
+    return tuple(res)
+
+
+def _network(design: Design):
+    nodes: list[str] = []
+    for name, th in (("switch", design.switch.thermal), ("rectifier", design.rectifier.thermal),
+                     ("inductor", design.inductor.thermal),
+                     *((c.name, c.thermal) for c in design.capacitors)):
+        nodes.append(name)
+        if th.sink is not None and th.rth_jc is not None and th.rth_cs is not None:
+            nodes.append(f"{name}.case")
+    nodes.extend(s.name for s in design.sinks)
+    res = [(a, b, r) for a, b, r, _ in thermal_paths(design)]
     try:
         return build_network(nodes, res)
     except ValueError as exc:
