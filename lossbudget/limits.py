@@ -639,6 +639,25 @@ def _where_text(point: dict[str, float], axes: tuple[str, ...]) -> str:
     return ", ".join(f"{a} {_q(point[a], dims[a])}" for a in axes)
 
 
+def _unsolved(row: LimitRow) -> LimitRow:
+    """A part row beside a stage with points that did not solve (runaway, no convergence).
+
+    Its worst value covers only the points that solved, so it is not ``ok``: it becomes a
+    ``caution`` saying so (the stage row itself is the ``fail``).
+    """
+    if row.status != "ok" or row.part == "stage":
+        return row
+    why = ("worst over the solved points only: no steady temperature where the stage runs "
+           "away (see the stage row)" if row.unit == "degC" else
+           "worst over the solved points only: not evaluated where the stage did not solve "
+           "(see the stage row)")
+    note = f"{row.note}; {why}" if row.note else why
+    return LimitRow(part=row.part, quantity=row.quantity, unit=row.unit, worst=row.worst,
+                    where=row.where, design_limit=row.design_limit,
+                    absolute_limit=row.absolute_limit, margin=row.margin,
+                    margin_unit=row.margin_unit, status="caution", basis=row.basis, note=note)
+
+
 def _stage_rows(design: Design, budgets: list[Budget], grid: Budget, corner: Corner,
                 varying: tuple[str, ...]) -> list[LimitRow]:
     """Rows for thermal runaway or non-convergence (fail) and infeasible points (caution)."""
@@ -815,7 +834,10 @@ def check_limits(design: Design, *, derating: str | None = None,
             design_limit=nan, absolute_limit=nan, margin=nan, margin_unit="", status="fail",
             basis="not evaluated: no point of the envelope solved", note="",
         ))
-    rows.extend(_stage_rows(design, budgets, grid, corner, varying))
+    stage = _stage_rows(design, budgets, grid, corner, varying)
+    if any(r.quantity == "thermal" for r in stage):
+        rows = [_unsolved(r) for r in rows]
+    rows.extend(stage)
     worst = max((r.status for r in rows), key=STATUS_ORDER.index, default="ok")
 
     dims = {"vin": "voltage", "vout": "voltage", "load": "current", "ambient": "temperature",

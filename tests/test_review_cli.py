@@ -62,3 +62,52 @@ def test_check_help_describes_the_profiles_and_custom():
         in text
     assert "A named profile ignores the design's [limits.margins]" in text
     assert "override" not in text
+
+
+# the demo's board at 40 K/W to ambient instead of 6 K/W: the rectifier (on the board) runs
+# away at high load at 55 degC, over a spread of loop gains
+HOT_BOARD = ('rth_to_ambient = "6 K/W"', 'rth_to_ambient = "40 K/W"')
+
+
+def test_group_reasons_by_kind_with_counts_and_spans():
+    from lossbudget.sweep import group_reasons
+
+    reasons = ["thermal runaway: loop gain 1.012 >= 1 (iteration)",
+               "thermal runaway: loop gain 1.284 >= 1 (iteration)",
+               "thermal runaway: loop gain 1.1 >= 1 (iteration)",
+               "below the minimum on-time",
+               "thermal runaway: loop gain 1.5 >= 1 (network)"]
+    assert group_reasons(reasons) == (
+        ("thermal runaway: loop gain 1.012 to 1.284 >= 1 (iteration)", 3),
+        ("below the minimum on-time", 1),
+        ("thermal runaway: loop gain 1.5 >= 1 (network)", 1),
+    )
+
+
+def test_map_groups_many_loop_gain_reasons_by_kind(tmp_path):
+    path = design_file(tmp_path, HOT_BOARD)
+    result = run("map", path, "--ambient", "55 degC", "--out", str(tmp_path / "m"))
+    assert result.exit_code == 0, result.output
+    lines = result.stdout.splitlines()
+    gains = [ln for ln in lines if "loop gain" in ln]
+    assert len(gains) == 1 and " to " in gains[0] and gains[0].strip().split()[1] == "points:"
+    count = int(gains[0].split()[0])
+    assert count > 1
+    flagged = next(ln for ln in lines if "flagged, by kind of reason" in ln)
+    listed = [ln for ln in lines if ln.startswith("    ") and " points: " in ln]
+    assert sum(int(ln.split()[0]) for ln in listed) == int(flagged.split(";")[1].split()[0])
+
+
+def test_check_lists_no_part_as_ok_beside_a_stage_that_did_not_solve(tmp_path):
+    path = design_file(tmp_path, HOT_BOARD)
+    result = run("check", path)
+    assert result.exit_code == 1
+    rows = [ln.split() for ln in result.stdout.splitlines()
+            if ln.strip().startswith(("switch ", "rectifier ", "inductor ", "cin ", "cout ",
+                                      "stage "))
+            and ln.rstrip().endswith("]")]
+    stage = [r for r in rows if r[0] == "stage"]
+    assert any(r[1] == "thermal" and "fail" in r for r in stage)
+    parts = [r for r in rows if r[0] != "stage"]
+    assert parts and not any("ok" in r for r in parts)
+    assert "worst over the solved points only" in result.stdout

@@ -174,7 +174,7 @@ def test_margin_chart_has_one_bar_per_row_coloured_by_status(tmp_path, captured)
         assert bars[name][1] == pytest.approx(to_rgba(plots.STATUS_STYLE[status][0]))
     assert bars["switch t_j"][2] == "vin 18 V · load 4 A · ambient 55 °C"
     # the row without a margin is named under the chart with its status
-    assert any(t.startswith("stage thermal: fail") for t in _texts(fig))
+    assert any(t.startswith("stage thermal: FAIL") for t in _texts(fig))
 
 
 def test_check_writes_the_margin_chart_and_refuses_a_bad_suffix(tmp_path):

@@ -202,8 +202,11 @@ class ExactRows:
         with np.errstate(invalid="ignore"):
             excess = np.array([hot.temperatures[p] - limits[p] for p in parts])  # part, vin, load
             closest = np.nanmax(excess, axis=(0, 2), initial=-np.inf)
-        row = int(np.argmax(closest)) if np.isfinite(closest).any() else 0
-        what = "hot corner|least temperature margin of min/nom/max" if vins.size > 1 else (
+        # the row with the most unsolved points (runaway) first, then the least margin
+        unsolved = np.count_nonzero(hot.flagged, axis=1)
+        row = int(np.lexsort((closest, unsolved))[-1])
+        what = "hot corner|least temperature margin of min/nom/max, unsolved points first" if (
+            vins.size > 1) else (
             "hot corner"
         )
         return cls(
@@ -370,10 +373,9 @@ def map_report(design: Design, run: MapRun, *, cautions: bool = True, files: boo
         )
     else:
         lines.append("  no point of the map could be solved")
-    flagged = f"{s.flagged_points} flagged"
-    if s.flagged_reasons:
-        flagged += " (" + "; ".join(f"{n}: {r}" for r, n in s.flagged_reasons) + ")"
-    lines.append(f"  DCM at {s.dcm_points} of {s.points} points; {flagged}")
+    lines.append(f"  DCM at {s.dcm_points} of {s.points} points; {s.flagged_points} flagged"
+                 + (", by kind of reason:" if s.flagged_reasons else ""))
+    lines.extend(_wrap(f"{n:>5} points: {r}", "    ") for r, n in s.flagged_reasons)
     lines.append("")
     at = (
         "at rated load"

@@ -13,6 +13,7 @@ repeat the distinction for print in grey. Every figure carries the caption line
 
 from __future__ import annotations
 
+import textwrap
 from pathlib import Path
 
 import numpy as np
@@ -175,12 +176,18 @@ def _row(vin_axis: np.ndarray, vin: float | None) -> int:
 
 
 def _flag_text(budget: Budget, mask: np.ndarray) -> str:
-    """Legend text for flagged points: the commonest reason among ``budget.reason[mask]``."""
-    reasons, counts = np.unique(np.asarray(budget.reason)[mask].astype(str),
-                                return_counts=True)
-    top = reasons[np.argmax(counts)] if reasons.size else ""
-    more = f" (+{reasons.size - 1} other reasons)" if reasons.size > 1 else ""
-    return f"flagged, no result: {top}{more}"
+    """Legend text for flagged points: the reasons among ``budget.reason[mask]`` by kind,
+    with their point counts (the two commonest kinds named)."""
+    from lossbudget.sweep import group_reasons
+
+    groups = group_reasons(np.asarray(budget.reason)[mask])
+    if not groups:
+        return "flagged, no result"
+    shown = "\n".join(f"{count} × {textwrap.shorten(text, 70)}" for text, count in groups[:2])
+    rest = sum(c for _, c in groups[2:])
+    more = (f"\n+{rest} point{'s' * (rest > 1)} of {len(groups) - 2} other "
+            f"kind{'s' * (len(groups) > 3)}" if len(groups) > 2 else "")
+    return f"flagged, no result:\n{shown}{more}"
 
 
 def _rows_mask(n: int, rows) -> np.ndarray:
@@ -809,7 +816,7 @@ def margin_chart(report, path) -> Path:
                       fontsize=8)
         lo, hi = min(0.0, float(m.min())), max(0.0, float(m.max()))
         span = (hi - lo) or 1.0
-        ax.set_xlim(lo - 0.25 * span * (lo < 0), hi + 0.3 * span)
+        ax.set_xlim(lo - 0.35 * span * (lo < 0), hi + 0.35 * span)
         ax.axvline(0.0, color="black", linewidth=1.0)
         ax.set_ylim(-0.6, len(rows) - 0.4)
         ax.set_xlabel("margin to the design limit after derating (K)" if unit == "K" else
@@ -821,16 +828,17 @@ def margin_chart(report, path) -> Path:
                          "tightest first", fontsize=9, color="0.25")
             ax.legend(handles=[Patch(facecolor=c, hatch=h, edgecolor="0.25", label=s)
                                for s, (c, h) in STATUS_STYLE.items()],
-                      loc="lower right", fontsize=8, framealpha=0.92)
+                      loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8,
+                      frameon=False, title="status", title_fontsize=8)
     if not panels:
         ax = fig.add_subplot(grid[0])
         ax.axis("off")
         ax.text(0.5, 0.5, "no limit row has a margin", ha="center", va="center")
     for n, r in enumerate(others):
         fig.text(0.01, (CAPTION_STRIP + 0.05 + 0.22 * (len(others) - 1 - n)) / fig.get_figheight(),
-                 f"{r.part} {r.quantity}: {r.status}, no margin: {r.basis}"[:150], fontsize=8,
-                 color=STATUS_STYLE.get(r.status, ("0.2", None))[0] if r.status != "ok"
-                 else "0.2", ha="left", va="bottom")
+                 textwrap.shorten(f"{r.part} {r.quantity}: {r.status.upper()}, no margin: "
+                                  f"{r.basis}", 150), fontsize=8, color="0.1", ha="left",
+                 va="bottom")
     fig.suptitle(f"{report.design_name}: margins to the design limits", fontsize=12,
                  fontweight="bold")
     _caption(fig)
