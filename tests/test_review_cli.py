@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from importlib import resources
 
+import numpy as np
 from click.testing import CliRunner
 
 from lossbudget.cli import main
@@ -111,3 +112,22 @@ def test_check_lists_no_part_as_ok_beside_a_stage_that_did_not_solve(tmp_path):
     parts = [r for r in rows if r[0] != "stage"]
     assert parts and not any("ok" in r for r in parts)
     assert "worst over the solved points only" in result.stdout
+
+
+def test_point_labels_the_stress_currents_per_part():
+    # the demo's output bank is 4 parts (count = 4): its row is one part's RMS current
+    import lossbudget as lb
+
+    result = run("point", str(DEMO_PATH))
+    assert result.exit_code == 0
+    lines = result.stdout.splitlines()
+    header = next(ln for ln in lines if ln.strip().startswith("part ") and "I rms" in ln)
+    assert "I rms (A/part)" in header
+    assert "currents per part: a capacitor bank's (or parallel devices') current / count" \
+        in result.stdout
+    d = lb.load_design(DEMO_PATH)
+    b = lb.solve(d, vin=d.operating.vin.nom, load_fraction=1.0)
+    cout = [ln for ln in lines[lines.index(header):] if ln.strip().startswith("cout ")][0]
+    # one part's RMS current as the budget holds it (the stress of one of the 4 parts)
+    per_part = float(np.ravel(b.stress("cout", "i_rms"))[0])
+    assert f"{per_part:.3f}" in cout.split()

@@ -111,12 +111,14 @@ def point_report(budget) -> str:
         srows.append(row)
     lines.append(
         aligned_table(
-            ["part", "I avg (A)", "I rms (A)", "I pk (A)", "V pk (V)", "B pk (T)", "dB pp (T)"],
+            ["part", "I avg (A/part)", "I rms (A/part)", "I pk (A/part)", "V pk (V)",
+             "B pk (T)", "dB pp (T)"],
             srows,
             right=[False] + [True] * 6,
             indent="  ",
         )
     )
+    lines.append("  currents per part: a capacitor bank's (or parallel devices') current / count")
     missing = budget.not_modelled
     if missing:
         lines.append("")
