@@ -21,6 +21,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from lossbudget.errors import DesignError
+from lossbudget.plausible import far_outside
 from lossbudget.units import (
     GLOSSARY,
     format_quantity,
@@ -472,6 +473,9 @@ class _Reader:
             return None
         if record:
             self.resolved.append((path, format_quantity(value, dim)))
+        hint = far_outside(dim_key or path, value)
+        if hint is not None:
+            self.warn(path, hint)
         return value
 
     def optional(self, table: dict, key: str, path: str, **kw) -> float | None:
@@ -1341,6 +1345,8 @@ def _core(rd: _Reader, raw: Any) -> Core | None:
         else:
             ct = (float(c[0]), float(c[1]), float(c[2]))
             rd.resolved.append(("inductor.core.ct", ", ".join(f"{x:g}" for x in ct)))
+    else:
+        rd.default("inductor.core.ct", "not given: the core loss has no temperature dependence")
     fit_f = fit_b = None
     if "fit_range" in tab:
         ftab = rd.table(tab["fit_range"], "inductor.core.fit_range", allowed=("f", "b"))
@@ -1788,6 +1794,12 @@ def load_design(source: str | Path | dict) -> Design:
             "expected distinct capacitor, resistor and sink names; repeated: " + ", ".join(dupes),
         )
     _check_gate_drive(rd, driver, {"switch": switch, "rectifier": rectifier})
+    if driver is not None and operating is not None and driver.supply == "vin" \
+            and driver.v_drive > operating.vin.min:
+        rd.warn("driver.supply", f'"vin" (a linear regulator from the input) cannot give the '
+                f"{format_quantity(driver.v_drive, 'voltage')} gate drive at the minimum input "
+                f"voltage {format_quantity(operating.vin.min, 'voltage')}: the gate is driven "
+                "lower there (higher Rds(on), slower edges) than this budget assumes")
     parts = {
         "switch.thermal": switch.thermal if switch else None,
         "rectifier.thermal": rectifier.thermal if rectifier else None,

@@ -181,6 +181,11 @@ def _context(design: Design, corner: Corner) -> _Context:
                 f"copper_ac: Dowell's Δ1 back-solved from rac_rdc = {w.rac_rdc:g} at the "
                 "nominal fsw and 25 degC" + ("" if w.layers else ", layers = 1 assumed")
             )
+    if ind.core is not None and ind.core.ct is None:
+        notes.append(
+            "core: no inductor.core.ct given, so the core loss has no temperature dependence "
+            "(taken at the fitted k, alpha, beta whatever the core's temperature)"
+        )
     caps = design.capacitors
     network = _network(design)
     parts = ("switch", "rectifier", "inductor", *(c.name for c in caps))
@@ -867,7 +872,15 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     st["switch", "turn_on"] = ("computed", "")
     st["switch", "turn_off"] = ("computed", "")
     st["switch", "coss"] = ("computed", "") if (sw.qoss or sw.eoss) else ("not_modelled", coss_key)
-    if ctx.sync:
+    if ctx.sync and d.light_load == "diode-emulation":
+        # the switch's body diode conducts in the dead times only while the inductor current
+        # is reversed, which diode emulation never lets it be: no data would change a number
+        st["switch", "dead_time"] = (
+            "not_applicable",
+            "diode emulation: the inductor current never reverses, so the switch's body "
+            "diode never conducts",
+        )
+    elif ctx.sync:
         has_dt = d.driver.dead_time is not None
         st["switch", "dead_time"] = (
             ("computed", "")

@@ -4,12 +4,15 @@ reasons, hints on suspicious values (through click's CliRunner)."""
 from __future__ import annotations
 
 from importlib import resources
+from pathlib import Path
 
 import numpy as np
+import pytest
 from click.testing import CliRunner
 
 from lossbudget.cli import main
 
+SAMPLES = Path(__file__).resolve().parents[1] / "sample_inputs"
 DEMO_PATH = resources.files("lossbudget") / "data" / "demo.toml"
 DEMO = DEMO_PATH.read_text("utf-8")
 
@@ -131,3 +134,93 @@ def test_point_labels_the_stress_currents_per_part():
     # one part's RMS current as the budget holds it (the stress of one of the 4 parts)
     per_part = float(np.ravel(b.stress("cout", "i_rms"))[0])
     assert f"{per_part:.3f}" in cout.split()
+
+
+# -- hints where the user is likely wrong -------------------------------------------------------
+
+
+def test_a_lower_case_prefix_is_refused_with_the_right_spelling(tmp_path):
+    path = design_file(tmp_path, ('fsw = "200 kHz"', 'fsw = "500 khz"'))
+    result = run("validate", path)
+    assert result.exit_code == 2
+    (line,) = result.stderr.strip().splitlines()
+    assert 'operating.fsw' in line and '"500 khz"' in line and 'did you mean "kHz"?' in line
+
+
+def test_an_ambiguous_prefix_names_both_readings():
+    from lossbudget.errors import DesignError
+    from lossbudget.units import parse_quantity
+
+    with pytest.raises(DesignError, match=r'did you mean "mHz" \(milli\) or "MHz" \(mega\)\?'):
+        parse_quantity("2 mhz", "frequency", where="f.toml: operating.fsw")
+
+
+def test_a_mega_ohm_rds_on_is_warned_with_the_range_and_its_basis(tmp_path):
+    path = design_file(tmp_path, ('{ typ = "13 mohm", at = "125 degC" }',
+                                  '{ typ = "13 Mohm", at = "125 degC" }'))
+    result = run("validate", path)
+    assert result.exit_code == 0  # a warning, not an error
+    (line,) = [ln for ln in result.stderr.splitlines() if "rds_on" in ln]
+    assert "13 Mohm is far outside the range of a power MOSFET's on-resistance" in line
+    assert "100 uohm to 10 ohm" in line and "from memory" in line
+
+
+def test_typical_values_raise_no_range_warning():
+    # the sample designs (invented parts of usual sizes) stay inside every band
+    import lossbudget as lb
+
+    for path in (resources.files("lossbudget") / "data" / "demo.toml",
+                 *sorted(SAMPLES.iterdir())):
+        if str(path).endswith(".toml"):
+            assert not any("far outside" in w for w in lb.load_design(path).warnings), path
+
+
+def test_a_boost_at_1_5_v_blames_the_ideal_duty():
+    import lossbudget as lb
+
+    d = lb.load_design(DEMO_PATH)
+    b = lb.solve(d, vin=1.5, load_fraction=1.0)
+    # hand calculation: ideal boost duty 1 - Vin/Vout = 1 - 1.5/48 = 0.96875 > max_duty 0.9
+    # (the demo's operating.max_duty); Erickson & Maksimovic, Fundamentals of Power
+    # Electronics, 2001, ch. 2, M(D) = 1/(1 - D)
+    assert str(np.ravel(b.reason)[0]) == (
+        "the ideal duty 0.969 (before any conduction drop) alone exceeds operating.max_duty 0.9")
+    # at 5 V the ideal duty 1 - 5/48 = 0.896 is under 0.9: the losses are to blame there
+    b5 = lb.solve(d, vin=5.0, load_fraction=1.0)
+    assert "ideal duty" not in str(np.ravel(b5.reason)[0])
+
+
+def test_gate_drive_from_vin_above_the_minimum_input_is_warned(tmp_path):
+    # the demo drives 10 V from vin (supply = "vin"); a 15 V minimum input is fine, 9 V is not
+    ok = run("validate", design_file(tmp_path, ('min = "18 V"', 'min = "15 V"')))
+    assert "driver.supply" not in ok.stderr
+    low = run("validate", design_file(tmp_path, ('min = "18 V"', 'min = "9 V"'), name="l.toml"))
+    (line,) = [ln for ln in low.stderr.splitlines() if "driver.supply" in ln]
+    assert "10 V gate drive at the minimum input voltage 9 V" in line
+
+
+def test_not_modelled_asks_only_for_data_that_change_a_number():
+    import lossbudget as lb
+
+    sample = SAMPLES / "fan_tray_sync_buck.toml"
+    d = lb.load_design(sample)  # a synchronous buck in diode emulation, no switch body diode
+    b = lb.solve(d, vin=d.operating.vin.nom, load_fraction=0.1)
+    assert not any(c == "switch" and m == "dead_time" for c, m, _ in b.not_modelled)
+    assert str(np.ravel(b.status("switch", "dead_time"))[0]).startswith(
+        "not_applicable: diode emulation")
+    # forced continuous lets the current reverse: then the body diode's data is asked for
+    import tomllib
+
+    raw = tomllib.loads(sample.read_text("utf-8"))
+    raw["design"]["light_load"] = "forced-continuous"
+    raw["switch"].pop("body_diode", None)
+    fc = lb.solve(lb.load_design(raw), vin=d.operating.vin.nom, load_fraction=0.1)
+    assert any(c == "switch" and m == "dead_time" for c, m, _ in fc.not_modelled)
+
+
+def test_core_loss_without_ct_says_it_has_no_temperature_dependence():
+    result = run("point", str(DEMO_PATH))  # the demo's core has no ct
+    assert "note: core: no inductor.core.ct given, so the core loss has no temperature " \
+        "dependence" in " ".join(result.stdout.split())
+    sample = SAMPLES / "grow_light_led_boost.toml"
+    assert "inductor.core.ct given" not in run("point", str(sample)).stdout  # it has ct
