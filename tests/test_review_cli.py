@@ -130,7 +130,7 @@ def test_point_labels_the_stress_currents_per_part():
         in result.stdout
     d = lb.load_design(DEMO_PATH)
     b = lb.solve(d, vin=d.operating.vin.nom, load_fraction=1.0)
-    cout = [ln for ln in lines[lines.index(header):] if ln.strip().startswith("cout ")][0]
+    cout = next(ln for ln in lines[lines.index(header):] if ln.strip().startswith("cout "))
     # one part's RMS current as the budget holds it (the stress of one of the 4 parts)
     per_part = float(np.ravel(b.stress("cout", "i_rms"))[0])
     assert f"{per_part:.3f}" in cout.split()
