@@ -1088,6 +1088,7 @@ class _Chunk:
     reason: np.ndarray
     loop_gain: np.ndarray
     pout: np.ndarray
+    diverging: np.ndarray
 
 
 def _temps_dict(ctx: _Context, temps: np.ndarray) -> dict[str, np.ndarray]:
@@ -1118,6 +1119,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
         return _evaluate(ctx, sub, _temps_dict(ctx, temps), full=False)
 
     temps = np.full((n, len(ctx.nodes)), np.nan)
+    diverging = np.full((n, len(ctx.nodes)), np.nan)
     runaway = np.zeros(n, dtype=bool)
     not_conv = np.zeros(n, dtype=bool)
     gain = np.full(n, np.nan)
@@ -1131,6 +1133,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
             heated=heated,
         )
         temps[ok] = sol.temperatures
+        diverging[ok] = sol.last_temperatures
         runaway[ok] = sol.runaway
         not_conv[ok] = sol.not_converged
         gain[ok] = sol.loop_gain
@@ -1154,7 +1157,8 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     ev.stage = _StageSummary(duty=st.duty, d2=st.d2, dcm=st.dcm)
     ev.zero = {k: _shared_strings(v) for k, v in ev.zero.items()}
     return _Chunk(
-        ev=ev, temps=temps, flags=flags, reason=reason, loop_gain=gain, pout=g.vout * g.load
+        ev=ev, temps=temps, flags=flags, reason=reason, loop_gain=gain, pout=g.vout * g.load,
+        diverging=diverging,
     )
 
 
@@ -1246,6 +1250,9 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         provenance=provenance,
         source_input_power=cat(lambda p: p.ev.source_power) * nan,
         loop_gain=cat(lambda p: p.loop_gain) * nan,
+        diverging_temperatures={
+            node: cat(lambda p, j=j: p.diverging[:, j]) for j, node in enumerate(ctx.nodes)
+        },
     )
 
 

@@ -190,7 +190,7 @@ def limit_checks(duty, fsw, *, max_duty, min_on_time, min_off_time):
 
 
 def ideal_duty_limit(ideal, *, max_duty, failing):
-    """Flag points whose lossless CCM duty cycle alone already exceeds the maximum duty.
+    """Flag points whose lossless CCM duty alone exceeds the maximum duty.
 
     Parameters
     ----------
