@@ -11,21 +11,10 @@ import pytest
 from click.testing import CliRunner
 
 from lossbudget.cli import main
+from tests.test_cli_check import design_file
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_inputs"
 DEMO_PATH = resources.files("lossbudget") / "data" / "demo.toml"
-DEMO = DEMO_PATH.read_text("utf-8")
-
-
-def design_file(tmp_path, *replacements: tuple[str, str], name: str = "cart.toml") -> str:
-    """The demo design with text replaced (each old text must be there), written to tmp_path."""
-    text = DEMO
-    for old, new in replacements:
-        assert old in text, old
-        text = text.replace(old, new)
-    path = tmp_path / name
-    path.write_text(text, encoding="utf-8")
-    return str(path)
 
 
 def run(*args: str):
