@@ -1,14 +1,16 @@
-"""Plots of a map: efficiency map, efficiency curves, loss breakdown, temperatures.
+"""Plots for a review: efficiency map, efficiency curves, loss breakdown, temperatures,
+every mechanism at two points, and the margins of a limit check.
 
-Each function takes a :class:`~lossbudget.budget.Budget` over input voltage (axis 0) × load
-(axis 1), as :func:`lossbudget.sweep.sweep` or :func:`lossbudget.sweep.sweep_rows` returns it,
-and writes one figure to ``path``: PNG, SVG or PDF by the suffix, written to a temporary file
+The map figures take a :class:`~lossbudget.budget.Budget` over input voltage (axis 0) × load
+(axis 1), as :func:`lossbudget.sweep.sweep` or :func:`lossbudget.sweep.sweep_rows` returns it;
+:func:`mechanism_bars` two one-point budgets; :func:`margin_chart` a limit report. Each
+writes one figure to ``path``: PNG, SVG or PDF by the suffix, written to a temporary file
 in the same folder and renamed, so a failed write leaves nothing half-written. matplotlib is
 imported inside the functions and used through :class:`matplotlib.figure.Figure` with the Agg
 canvas only, so no pyplot state is created or changed. Colours are the Okabe–Ito set (safe for
 the common colour-vision deficiencies) and cividis for the map; line styles and markers
-repeat the distinction for print in grey. Every figure carries the caption line
-"Estimates — verify on hardware".
+repeat the distinction for print in grey. Every figure carries the cautions on two lines
+inside its lower edge.
 """
 
 from __future__ import annotations
