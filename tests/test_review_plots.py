@@ -51,6 +51,21 @@ def _texts(fig) -> list[str]:
     return out
 
 
+def _assert_texts_inside(fig, name):
+    """The caption once, and every text of the figure inside the image."""
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    box = fig.bbox
+    caption = [t for t in fig.texts if t.get_text() == plots.CAPTION]
+    assert len(caption) == 1, name
+    for artist in [*fig.texts, *(a.title for a in fig.axes)]:
+        if not artist.get_text():
+            continue
+        ext = artist.get_window_extent(renderer)
+        assert ext.x0 >= box.x0 - 1 and ext.x1 <= box.x1 + 1, (name, artist.get_text())
+        assert ext.y0 >= box.y0 - 1 and ext.y1 <= box.y1 + 1, (name, artist.get_text())
+
+
 def test_demo_figures_keep_every_caption_inside_and_show_exact_vins(tmp_path, captured):
     # the map grid 18:32:7 has no 24 V row (18, 20.33, 22.67, 25, ...): the per-Vin figures
     # must still show the nominal 24 V exactly
@@ -59,19 +74,7 @@ def test_demo_figures_keep_every_caption_inside_and_show_exact_vins(tmp_path, ca
     assert result.exit_code == 0, result.output
     for name in ("efficiency_map.png", "efficiency_curves.png", "loss_breakdown.png",
                  "temperatures.png", "loss_bars.png"):
-        fig = captured[name]
-        fig.canvas.draw()
-        renderer = fig.canvas.get_renderer()
-        box = fig.bbox
-        caption = [t for t in fig.texts if t.get_text() == plots.CAPTION]
-        assert len(caption) == 1, name
-        # every text of the figure (caption, titles, legends) lies inside the image
-        for artist in [*fig.texts, *(a.title for a in fig.axes)]:
-            if not artist.get_text():
-                continue
-            ext = artist.get_window_extent(renderer)
-            assert ext.x0 >= box.x0 - 1 and ext.x1 <= box.x1 + 1, (name, artist.get_text())
-            assert ext.y0 >= box.y0 - 1 and ext.y1 <= box.y1 + 1, (name, artist.get_text())
+        _assert_texts_inside(captured[name], name)
     assert "vin 24 V" in " ".join(_texts(captured["loss_breakdown.png"]))
     curves = " ".join(_texts(captured["efficiency_curves.png"]))
     assert all(f"vin {v} V" in curves for v in (18, 24, 32))
@@ -175,6 +178,27 @@ def test_margin_chart_has_one_bar_per_row_coloured_by_status(tmp_path, captured)
     assert bars["switch t_j"][2] == "vin 18 V · load 4 A · ambient 55 °C"
     # the row without a margin is named under the chart with its status
     assert any(t.startswith("stage thermal: FAIL") for t in _texts(fig))
+    _assert_texts_inside(fig, "m.png")
+
+
+def test_flag_legend_counts_reasons_by_kind():
+    # the demo's board at 40 K/W to ambient: runaways at 55 degC over a spread of loop gains
+    # and of nodes passing the ceiling; the legend names each kind once with its count
+    import tomllib
+
+    raw = tomllib.loads(DEMO.read_text(encoding="utf-8"))
+    raw["thermal"]["sink"][0]["rth_to_ambient"] = "40 K/W"
+    d = lossbudget.load_design(raw)
+    b = lossbudget.sweep(d, vin=np.linspace(18.0, 32.0, 8), load=np.linspace(0.5, 4.0, 12),
+                         ambient=55.0)
+    text = plots._flag_text(b, b.flagged)
+    lines = text.splitlines()[1:]
+    counted = [ln for ln in lines if " × " in ln]
+    assert counted and len(set(counted)) == len(counted)
+    shown = sum(int(ln.split(" × ")[0]) for ln in counted)
+    rest = [ln for ln in lines if ln.startswith("+")]
+    more = int(rest[0].split()[0][1:]) if rest else 0
+    assert shown + more == int(b.flagged.sum())
 
 
 def test_check_writes_the_margin_chart_and_refuses_a_bad_suffix(tmp_path):
