@@ -213,3 +213,10 @@ def test_core_loss_without_ct_says_it_has_no_temperature_dependence():
         "dependence" in " ".join(result.stdout.split())
     sample = SAMPLES / "grow_light_led_boost.toml"
     assert "inductor.core.ct given" not in run("point", str(sample)).stdout  # it has ct
+
+
+def test_derating_custom_without_margins_is_one_line_exit_2():
+    result = run("check", str(DEMO_PATH), "--derating", "custom")
+    assert result.exit_code == 2 and result.stdout == ""
+    (line,) = result.stderr.strip().splitlines()
+    assert "limits.margins: --derating custom needs the design's [limits.margins]" in line
