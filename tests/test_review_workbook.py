@@ -43,8 +43,21 @@ def test_nominal_point_and_breakdown_are_solved_at_exactly_24_v(wb, design):
     assert charts["A1"].value == "Loss by component at vin = 24 V (W)"
     header = [c.value for c in charts[2]]
     row = lb.solve(design, vin=24.0, load=LOAD)
-    got = [r[header.index("switch_w")] for r in charts.iter_rows(min_row=3, values_only=True)]
+    got = [r[header.index("switch_w")]
+           for r in charts.iter_rows(min_row=3, max_row=2 + LOAD.size, values_only=True)]
     np.testing.assert_allclose(got, row.loss("switch"), rtol=1e-12)
+    # the efficiency curves' table: the design's 18, 24 and 32 V, each solved exactly
+    start = next(k for k, r in enumerate(charts.iter_rows(values_only=True), start=1)
+                 if r[0] == "Efficiency at the design's input voltages (solved exactly)")
+    assert [c.value for c in charts[start + 1]][:4] == [
+        "load_a", "efficiency at vin 18 V", "efficiency at vin 24 V", "efficiency at vin 32 V"]
+    table = np.array([r[:4] for r in charts.iter_rows(min_row=start + 2,
+                                                       max_row=start + 1 + LOAD.size,
+                                                       values_only=True)], float)
+    np.testing.assert_allclose(table[:, 0], LOAD, rtol=1e-15)
+    for k, vin in enumerate((18.0, 24.0, 32.0), start=1):
+        np.testing.assert_allclose(table[:, k], lb.solve(design, vin=vin, load=LOAD).efficiency,
+                                   rtol=1e-12)
 
 
 def test_map_axis_labels_hold_no_sixteen_digit_floats(wb):
@@ -57,9 +70,10 @@ def test_map_axis_labels_hold_no_sixteen_digit_floats(wb):
 
 def test_efficiency_chart_axis_is_scaled_to_the_data(wb):
     chart = wb["Charts"]._charts[0]
-    ws = wb["Map"]
-    eff = np.array([list(r[1:]) for r in ws.iter_rows(min_row=2, max_row=1 + VIN.size,
-                                                                values_only=True)], float)
+    eff = np.array([[np.nan if v is None else v for v in r[1:4]]
+                    for r in wb["Charts"].iter_rows(min_row=3 + LOAD.size + 3,
+                                                     max_row=2 + 2 * LOAD.size + 3,
+                                                     values_only=True)], float)
     lo, hi = chart.y_axis.scaling.min, chart.y_axis.scaling.max
     assert lo <= np.nanmin(eff) and hi >= np.nanmax(eff)
     # within a whole percent (plus rounding) of the data, not an automatic 75-100 %

@@ -225,7 +225,8 @@ def write_workbook(path: str | os.PathLike, *, budget: Budget, report: Any = Non
     -----
     Sheets: ``Summary``, ``Losses`` (the loss table, auto-filter), ``Map`` (efficiency and
     total loss over input voltage down and load across, colour scales), ``Charts`` (efficiency
-    versus load per input voltage; loss by component at one input voltage, stacked), ``Thermal``
+    versus load at the design's min, nominal and max input voltage, solved exactly (the map's
+    rows without a design); loss by component at one input voltage, stacked), ``Thermal``
     (every node's temperature per point, its design limit after derating and its rated
     maximum with both margins; the thermal network beside), ``Stresses`` (with the operating
     axes), ``Points`` and ``Inputs``. Numbers keep full precision (the map's axis labels: 4
@@ -298,17 +299,18 @@ class _View:
         self.is_map = not pairs.duplicated().any()
         self.vins = np.unique(self.vin)
         self.loads = np.unique(self.load)
-        self.nominal, self.nominal_row = self._nominal_solves()
+        self.nominal, self.exact_vins, self.exact_rows = self._nominal_solves()
 
     def _nominal_solves(self):
-        """The nominal point and the nominal input voltage's row, solved exactly.
+        """The nominal point and the design's input voltages' rows, solved exactly.
 
-        The nominal point is the design's nominal input voltage at the rated load; the row
-        the nominal input voltage over the budget's loads; both at the budget's ambient (the
-        design's nominal where the budget spans several) and corner. None without a design.
+        The nominal point is the design's nominal input voltage at the rated load; the rows
+        the minimum, nominal and maximum input voltage over the budget's loads (axis 0 input
+        voltage, axis 1 load); all at the budget's ambient (the design's nominal where the
+        budget spans several) and corner. None without a design.
         """
         if self.design is None:
-            return None, None
+            return None, None, None
         from lossbudget.solver import solve
 
         op = self.design.operating
@@ -317,8 +319,10 @@ class _View:
         corner = self.budget.provenance.get("corner", "typ")
         point = solve(self.design, vin=op.vin.nom, load=op.iout_rated, ambient=amb,
                       corner=corner)
-        row = solve(self.design, vin=op.vin.nom, load=self.loads, ambient=amb, corner=corner)
-        return point, row
+        vins = np.unique([op.vin.min, op.vin.nom, op.vin.max])
+        rows = solve(self.design, vin=vins[:, np.newaxis], load=self.loads[np.newaxis, :],
+                     ambient=amb, corner=corner)
+        return point, vins, rows
 
     @property
     def chart_vin(self) -> float:
@@ -657,9 +661,11 @@ def _charts_sheet(ws, view: _View, *, map_ws, grid: _Grid | None) -> None:
     components = view.budget.components
     vin = view.chart_vin
     vin_text = format_quantity(vin, "voltage")
-    if view.nominal_row is not None:  # the nominal input voltage, solved exactly
+    exact = view.exact_rows
+    if exact is not None:  # the nominal input voltage, solved exactly
         loads = np.asarray(view.loads, dtype=float)
-        per = {c: np.ravel(view.nominal_row.loss(c)) for c in components}
+        k_nom = int(np.flatnonzero(view.exact_vins == view.design.operating.vin.nom)[0])
+        per = {c: np.reshape(exact.loss(c), exact.shape)[k_nom] for c in components}
     else:
         at = np.flatnonzero(view.vin == vin)
         at = at[np.argsort(view.load[at], kind="stable")]
@@ -673,6 +679,17 @@ def _charts_sheet(ws, view: _View, *, map_ws, grid: _Grid | None) -> None:
     for k in range(loads.size):
         ws.append([cells.value(float(loads[k]), "0.000"),
                    *(cells.value(float(per[c][k]), "0.000") for c in components)])
+    eff_first = 3 + loads.size + 3  # the efficiency table: after a blank, a title, a header
+    if exact is not None:
+        ws.append([])
+        ws.append([cells.section("Efficiency at the design's input voltages (solved exactly)")])
+        ws.append([cells.header("load_a"),
+                   *(cells.header(f"efficiency at vin {format_quantity(v, 'voltage')}")
+                     for v in view.exact_vins)])
+        eff_exact = np.reshape(exact.efficiency, exact.shape)
+        for k in range(loads.size):
+            ws.append([cells.value(float(loads[k]), "0.000"),
+                       *(cells.value(float(e), "0.00%") for e in eff_exact[:, k])])
 
     anchor_col = _column_letter(len(columns) + 2)
     eff = ScatterChart()
@@ -685,17 +702,22 @@ def _charts_sheet(ws, view: _View, *, map_ws, grid: _Grid | None) -> None:
     eff.x_axis.delete = False
     eff.y_axis.delete = False
     eff.height, eff.width = 9.5, 17.0
-    x = Reference(map_ws, min_col=grid.first_col, max_col=grid.last_col, min_row=grid.header_row)
-    nominal_row = None
-    if view.design is not None:
-        nominal_row = int(np.argmin(np.abs(view.vins - view.design.operating.vin.nom)))
-    shown_rows = _chart_rows(len(view.vins), nominal_row)
-    eff.y_axis.scaling.min, eff.y_axis.scaling.max = _efficiency_span(
-        _pivot(view, view.efficiency)[shown_rows])
-    for n, i in enumerate(shown_rows):
-        row = grid.first_row + i
-        y = Reference(map_ws, min_col=grid.first_col, max_col=grid.last_col, min_row=row)
-        series = Series(y, x, title=f"vin {format_quantity(view.vins[i], 'voltage')}")
+    if exact is not None:  # the exact rows of the table above
+        last = eff_first + loads.size - 1
+        x = Reference(ws, min_col=1, min_row=eff_first, max_row=last)
+        refs = [(Reference(ws, min_col=2 + i, min_row=eff_first, max_row=last), v)
+                for i, v in enumerate(view.exact_vins)]
+        shown = np.reshape(exact.efficiency, exact.shape)
+    else:  # the map's rows
+        x = Reference(map_ws, min_col=grid.first_col, max_col=grid.last_col,
+                      min_row=grid.header_row)
+        rows = _chart_rows(len(view.vins), None)
+        refs = [(Reference(map_ws, min_col=grid.first_col, max_col=grid.last_col,
+                           min_row=grid.first_row + i), view.vins[i]) for i in rows]
+        shown = _pivot(view, view.efficiency)[rows]
+    eff.y_axis.scaling.min, eff.y_axis.scaling.max = _efficiency_span(shown)
+    for n, (y, v) in enumerate(refs):
+        series = Series(y, x, title=f"vin {format_quantity(v, 'voltage')}")
         colour = SERIES_COLOURS[n % len(SERIES_COLOURS)]
         series.graphicalProperties.line.solidFill = colour
         series.graphicalProperties.line.width = 22000
