@@ -206,3 +206,14 @@ def test_check_writes_the_margin_chart_and_refuses_a_bad_suffix(tmp_path):
     assert ok.exit_code == 0 and (tmp_path / "m.png").stat().st_size > 10_000
     bad = CliRunner().invoke(main, ["check", str(DEMO), "--chart", str(tmp_path / "m.txt")])
     assert bad.exit_code == 2 and "--chart" in bad.stderr and not (tmp_path / "m.txt").exists()
+
+
+def test_temperature_panels_name_a_map_ambient_that_is_not_the_nominal(tmp_path, captured):
+    result = CliRunner().invoke(main, ["map", str(DEMO), "--vin", "18:32:3", "--load-pct",
+                                       "20:100:3", "--ambient", "40 degC", "--out",
+                                       str(tmp_path)])
+    assert result.exit_code == 0, result.output
+    temps = _texts(captured["temperatures.png"])
+    assert any(t.startswith("the map's ambient: vin 24 V") and "ambient 40 °C" in t
+               for t in temps)
+    assert not any(t.startswith("nominal corner") for t in temps)

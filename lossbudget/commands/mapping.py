@@ -315,6 +315,9 @@ def run_map(
                 hot=exact.hot,
                 hot_vin=exact.hot_vin,
                 hot_what=exact.hot_what,
+                what="nominal corner"
+                if ambient is None or ambient == op.ambient.nom
+                else "the map's ambient",
             ),
         )
     )

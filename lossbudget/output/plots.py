@@ -591,7 +591,7 @@ def temperature_curves(budget: Budget, path, *, vin=None,
                        rated_load: float | None = None,
                        design_limits: dict[str, float] | None = None,
                        hot: Budget | None = None, hot_vin=None,
-                       hot_what: str = "hot corner") -> Path:
+                       hot_what: str = "hot corner", what: str = "nominal corner") -> Path:
     """Each part's temperature versus load, with its limit dashed in the same colour.
 
     With ``hot`` a second panel below shows the same parts at another corner (for a review:
@@ -619,6 +619,8 @@ def temperature_curves(budget: Budget, path, *, vin=None,
     hot_what : str
         What the lower panel shows, for its title; text after a "|" says why its input
         voltage was chosen. [-]
+    what : str
+        What the upper panel shows, for its title (with ``hot``). [-]
 
     Returns
     -------
@@ -633,7 +635,7 @@ def temperature_curves(budget: Budget, path, *, vin=None,
     parts = [p for p in budget.temperature_limits if p in budget.temperatures]
     derated = design_limits or {}
     colour = {p: OKABE_ITO[n % len(OKABE_ITO)] for n, p in enumerate(parts)}
-    panels = [(budget, r, "nominal corner" if hot is not None else "temperatures")]
+    panels = [(budget, r, what if hot is not None else "temperatures")]
     if hot is not None:
         hot_axis, hot_load = _grid(hot)
         if not np.array_equal(hot_load, load):
