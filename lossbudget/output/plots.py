@@ -366,13 +366,11 @@ def efficiency_curves(budget: Budget, path, *, vins=None,
     path : str or Path
         The file to write (.png, .svg or .pdf).
     vins : sequence of float, optional
-        Input voltages to draw; each is taken at the map row nearest it (no interpolation).
-        By default up to four rows spread over the map. [V]
+        Input voltages to draw; each is taken at the map row nearest it (no interpolation:
+        the caller solves the input voltages it names as rows, as ``map`` does). By default
+        up to four rows spread over the map. [V]
     rated_load : float, optional
         Rated output current, for a secondary axis in percent of rated. [A]
-    design_limits : dict, optional
-        Part -> temperature design limit after derating [degC]; drawn instead of the rated
-        limits where given (the rated limit is then named in the line's label).
 
     Returns
     -------
