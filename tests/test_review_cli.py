@@ -220,3 +220,25 @@ def test_derating_custom_without_margins_is_one_line_exit_2():
     assert result.exit_code == 2 and result.stdout == ""
     (line,) = result.stderr.strip().splitlines()
     assert "limits.margins: --derating custom needs the design's [limits.margins]" in line
+
+
+def test_the_readme_margins_example_gives_the_limits_it_describes():
+    # the [limits.margins] block of the README, on the demo design (100 V, 175 degC switch;
+    # inductor 125 degC hot spot, i_sat 17.47 A when hot per the check): use_up_to and
+    # below_max as the README states them
+    import tomllib
+
+    import lossbudget as lb
+
+    readme = (SAMPLES.parent / "README.md").read_text("utf-8")
+    block = readme.split("```toml\n[limits.margins]\n", 1)[1].split("```", 1)[0]
+    raw = tomllib.loads(DEMO_PATH.read_text("utf-8"))
+    del raw["limits"]["derating"]
+    raw["limits"]["margins"] = tomllib.loads(block)
+    rep = lb.check_limits(lb.load_design(raw))
+    row = {(r.part, r.quantity): r for r in rep.rows}
+    assert row["switch", "v_pk"].design_limit == pytest.approx(0.75 * 100.0)
+    assert row["switch", "t_j"].design_limit == pytest.approx(175.0 - 30.0)
+    assert row["inductor", "t_hot"].design_limit == pytest.approx(min(125.0 - 20.0, 110.0))
+    i_pk = row["inductor", "i_pk"]
+    assert i_pk.design_limit == pytest.approx(0.85 * i_pk.absolute_limit)
