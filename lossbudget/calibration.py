@@ -50,9 +50,13 @@ BOARD_START = 1e-3
 STEP = 1e-3
 """Finite-difference step of the Jacobian in the fit's units (factor, or 10 mΩ) [-]; large
 against the 0.01 K tolerance of the coupled thermal solve, small against the factors."""
-CONDITION_LIMIT = 1e-3
+CONDITION_LIMIT = 1e-2
 """Refuse when a singular value of the column-normalised Jacobian falls below this fraction of
-the largest: the factors then move the residuals along (nearly) the same direction. [-]"""
+the largest: the factors then move the residuals along (nearly) the same direction (for two
+factors, a correlation of their effects above 0.99995). [-]"""
+DETERMINED_LIMIT = 1.0
+"""Refuse a factor whose standard error at the start exceeds this many of the fit's units
+(± 100 % on a scale factor, ± 10 mΩ on a board resistance): the points do not determine it. [-]"""
 EFFECT_LIMIT = 1e-3
 """Refuse a factor whose doubling moves no residual by more than this many standard
 deviations: the measurements do not see it. [-]"""
@@ -347,8 +351,6 @@ _HINTS = {
     "input voltages and at light load",
     "board": "an added series resistance heats no part of the network: add temperature "
     "readings of the parts (t_<node>_degc) to tell it from their own losses",
-    "rth": "a sink's resistance shows mainly in temperatures: add a t_<node>_degc reading of "
-    "that sink or of a part mounted on it",
 }
 
 
@@ -662,7 +664,7 @@ def calibrate(
     if n_res < len(names):
         raise DesignError(f"{bench.name}: free: {len(names)} factors need at least as many "
                           f"readings; the bench file holds {n_res}")
-    _refuse_indistinguishable(model.jacobian(p0, lo, hi), names, bench)
+    _refuse_indistinguishable(model.jacobian(p0, lo, hi), names, bench, start=True)
     fit = least_squares(
         model.residuals,
         p0,
@@ -719,8 +721,10 @@ def _refuse_unsolved(bench: Bench, budget) -> None:
         ])
 
 
-def _refuse_indistinguishable(jac: np.ndarray, names: tuple[str, ...], bench: Bench) -> None:
-    """Refuse factors the measurements cannot see, or cannot tell apart."""
+def _refuse_indistinguishable(
+    jac: np.ndarray, names: tuple[str, ...], bench: Bench, *, start: bool = False
+) -> None:
+    """Refuse factors the measurements cannot see, cannot tell apart, or do not determine."""
     norms = np.linalg.norm(jac, axis=0)
     blind = [f for f, c in zip(names, norms, strict=True) if not c > EFFECT_LIMIT]
     if blind:
@@ -729,19 +733,33 @@ def _refuse_indistinguishable(jac: np.ndarray, names: tuple[str, ...], bench: Be
             f"{'it' if len(blind) == 1 else 'each'} moves no reading by a standard "
             f"deviation): {_hints(blind, bench)}"
         )
-    if len(names) < 2:
+    if len(names) > 1:
+        _, s, vt = np.linalg.svd(jac / norms, full_matrices=False)
+        weak = s < CONDITION_LIMIT * s[0]
+        if np.any(weak):
+            involved = np.max(np.abs(vt[weak]), axis=0) > 0.1
+            group = [f for f, w in zip(names, involved, strict=True) if w]
+            raise DesignError(
+                f"{bench.name}: free: {_and(group)} cannot be told apart by these "
+                f"{bench.size} points ({_span(bench)}): their effects on the readings are "
+                "(nearly) proportional; fix all but one, or measure to separate them: "
+                f"{_hints(group, bench)}"
+            )
+    if not start:
         return
-    _, s, vt = np.linalg.svd(jac / norms, full_matrices=False)
-    weak = s < CONDITION_LIMIT * s[0]
-    if not np.any(weak):
-        return
-    involved = np.max(np.abs(vt[weak]), axis=0) > 0.1
-    group = [f for f, w in zip(names, involved, strict=True) if w]
-    raise DesignError(
-        f"{bench.name}: free: {_and(group)} cannot be told apart by these {bench.size} "
-        f"points ({_span(bench)}): their effects on the readings are (nearly) proportional; "
-        f"fix all but one, or measure to separate them: {_hints(group, bench)}"
-    )
+    se = np.sqrt(np.diag(np.linalg.inv(jac.T @ jac)))
+    loose = [(f, x) for f, x in zip(names, se, strict=True) if x > DETERMINED_LIMIT]
+    if loose:
+        what = ", ".join(
+            f"{f} ± {_display(f, x * _unit_scale(f))}"
+            + ("" if f.startswith("board.") else f" ({x * 100:.0f} %)")
+            for f, x in loose
+        )
+        raise DesignError(
+            f"{bench.name}: free: these {bench.size} points ({_span(bench)}) do not determine "
+            f"{what}: fix {'it' if len(loose) == 1 else 'them'}, or measure more: "
+            f"{_hints([f for f, _ in loose], bench)}"
+        )
 
 
 def _and(items: list[str]) -> str:
@@ -764,7 +782,11 @@ def _hints(group: list[str], bench: Bench) -> str:
     kinds: set[str] = set()
     for f in group:
         kind = f.partition(".")[0]
-        if kind not in kinds:
+        if kind == "rth":
+            sink = f.partition(".")[2]
+            out.append(f"{f}: a sink's resistance shows mainly in temperatures: add "
+                       f"{node_column(sink)} or the temperature of a part mounted on {sink}")
+        elif kind not in kinds:
             kinds.add(kind)
             out.append(f"{f}: {_HINTS[kind]}")
     return "; ".join(out)
