@@ -47,9 +47,10 @@ BOARD_SCALE = 0.01
 """Typical size of a board resistance, the fit's unit for it (10 mΩ). [ohm]"""
 BOARD_START = 1e-3
 """Starting value of a board resistance the design does not hold yet. [ohm]"""
-STEP = 1e-3
-"""Finite-difference step of the Jacobian in the fit's units (factor, or 10 mΩ) [-]; large
-against the 0.01 K tolerance of the coupled thermal solve, small against the factors."""
+STEP = 1e-2
+"""Finite-difference step of the Jacobian in the fit's units (1 % on a factor, 0.1 mΩ on a
+board resistance) [-]: large against the 0.01 K tolerance of the coupled thermal solve, small
+against the factors' uncertainty."""
 CONDITION_LIMIT = 1e-2
 """Refuse when a singular value of the column-normalised Jacobian falls below this fraction of
 the largest: the factors then move the residuals along (nearly) the same direction (for two
