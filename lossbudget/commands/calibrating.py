@@ -153,8 +153,7 @@ def calibrate_command(design: Path, bench: Path, free: str, output: Path | None,
                 encoding="utf-8")
     if report is not None:
         click.echo("")
-        click.echo(f"limits predicted with the calibrated design "
-                   f"({cal.design.calibration.describe()}):")
+        click.echo("limits predicted with the calibrated design:")
         click.echo(check_report(report))
     click.echo("")
     for t in targets:
