@@ -271,6 +271,7 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
     """
     dim = DIMENSIONS[dimension]
     expected = dimension_text(dim)
+    finite = f"a finite {expected[2:]}" if expected.startswith("a ") else f"a finite {expected}"
     prefix = f"{where}: " if where else ""
     if isinstance(value, bool) or not isinstance(value, int | float | str):
         raise DesignError(f"{prefix}expected {expected}, got {echo_value(value)}")
@@ -281,7 +282,7 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
             number = float(value)
         except OverflowError:  # an integer beyond the float range (from a dict source)
             raise DesignError(
-                f"{prefix}expected a finite {expected}, got {echo_value(value)}"
+                f"{prefix}expected {finite}, got {echo_value(value)}"
             ) from None
     else:
         match = _NUMBER.match(value)
@@ -298,7 +299,7 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
         elif not dim.bare_ok:
             raise DesignError(f"{prefix}expected {expected}, got {quote_text(value)}")
     if not math.isfinite(number):
-        raise DesignError(f"{prefix}expected a finite {expected}, got {echo_value(value)}")
+        raise DesignError(f"{prefix}expected {finite}, got {echo_value(value)}")
     return number
 
 

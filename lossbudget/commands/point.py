@@ -11,6 +11,7 @@ from lossbudget.cautions import CAUTIONS
 from lossbudget.commands.common import (
     BadInput,
     design_argument,
+    load_percent,
     quantity,
     read_design,
     reports_bad_input,
@@ -165,7 +166,7 @@ def point(design: Path, vin, load_, load_pct, ambient, fsw, corner) -> None:
         d,
         vin=quantity(vin, "voltage", "--vin") if vin is not None else op.vin.nom,
         load=quantity(load_, "current", "--load"),
-        load_fraction=None if load_pct is None else load_pct / 100.0,
+        load_fraction=load_percent(load_pct),
         ambient=quantity(ambient, "temperature", "--ambient"),
         fsw=quantity(fsw, "frequency", "--fsw"),
         corner=corner,
