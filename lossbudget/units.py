@@ -241,8 +241,8 @@ def _bounds_text(dim: Dimension, dimension: str) -> str:
     """The stated range of a dimension, for an error message."""
     if dimension == "temperature":
         return f"from {dim.lo:g} degC to {dim.hi:g} degC"
-    lo = format_quantity(dim.lo, dimension) if dim.lo > 0 else "0"
-    return f"from {lo} to {format_quantity(dim.hi, dimension)} in magnitude"
+    unit = f" {dim.si}" if dim.si else ""
+    return f"from {dim.lo:g}{unit} to {dim.hi:g}{unit} in magnitude"
 
 
 def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
@@ -301,6 +301,15 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
     if not math.isfinite(number):
         raise DesignError(f"{prefix}expected {finite}, got {echo_value(value)}")
     return number
+
+
+def range_rules() -> list[tuple[str, str]]:
+    """Each bounded dimension with its stated range, as the README lists them."""
+    return [
+        (name.replace("_", " "), _bounds_text(dim, name))
+        for name, dim in DIMENSIONS.items()
+        if dim.lo > 0 or math.isfinite(dim.hi) or name == "temperature"
+    ]
 
 
 def check_range(number: float, dimension: str, *, where: str = "", raw: object = None) -> float:

@@ -128,5 +128,5 @@ def test_an_unclipped_point_carries_no_reason():
 def test_an_inductance_of_1e308_henry_is_refused_at_load():
     raw = copy.deepcopy(DEMO)
     raw["inductor"]["l"] = 1e308
-    with pytest.raises(DesignError, match=r"inductor\.l: expected inductance .* to 10 H"):
+    with pytest.raises(DesignError, match=r"inductor\.l: expected inductance .* to 10 H in"):
         load_design(raw)
