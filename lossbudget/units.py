@@ -281,9 +281,7 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
         try:
             number = float(value)
         except OverflowError:  # an integer beyond the float range (from a dict source)
-            raise DesignError(
-                f"{prefix}expected {finite}, got {echo_value(value)}"
-            ) from None
+            raise DesignError(f"{prefix}expected {finite}, got {echo_value(value)}") from None
     else:
         match = _NUMBER.match(value)
         if match is None:
