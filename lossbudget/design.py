@@ -54,6 +54,10 @@ INTEGER_MAXIMA: dict[str, tuple[int, str]] = {
     "layers": (100, "winding layers on one core"),
 }
 """Largest accepted whole number per key, with the reason stated in the error message."""
+CT_MAX = 100.0
+"""Largest magnitude of a core temperature-factor coefficient (core.ct)."""
+RAC_RDC_MAX = 1000.0
+"""Largest measured AC-to-DC resistance ratio of a winding (winding.rac_rdc)."""
 
 
 # --------------------------------------------------------------------------------------------
@@ -1377,6 +1381,15 @@ def _core(rd: _Reader, raw: Any) -> Core | None:
                 "inductor.core.ct",
                 f"expected three finite numbers [ct0, ct1, ct2], got {_show(c)}",
             )
+        elif any(abs(x) > CT_MAX for x in c):
+            # the factor is normalised near 1 at its reference temperature (ferrite fits are of
+            # order 1, 1e-2 /K and 1e-4 /K2); beyond this the loss overflows before it means
+            # anything
+            rd.problem(
+                "inductor.core.ct",
+                f"expected coefficients of magnitude at most {CT_MAX:g} (a factor near 1 at "
+                f"the reference temperature), got {_show(c)}",
+            )
         else:
             ct = (float(c[0]), float(c[1]), float(c[2]))
             rd.resolved.append(("inductor.core.ct", ", ".join(f"{x:g}" for x in ct)))
@@ -1435,8 +1448,12 @@ def _winding(rd: _Reader, raw: Any) -> Winding | None:
         )
         por = None
     rac = rd.number(tab, "rac_rdc", path)
-    if rac is not None and rac < 1:
-        rd.problem("inductor.winding.rac_rdc", f"expected Rac/Rdc >= 1, got {rac:g}")
+    if rac is not None and not 1 <= rac <= RAC_RDC_MAX:
+        rd.problem(
+            "inductor.winding.rac_rdc",
+            f"expected Rac/Rdc from 1 to {RAC_RDC_MAX:g} (a measured winding at its switching "
+            f"frequency), got {rac:g}",
+        )
         rac = None
     litz = tab.get("litz", False)
     if not isinstance(litz, bool):

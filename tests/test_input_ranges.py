@@ -217,3 +217,18 @@ def test_the_readme_lists_every_stated_range():
     readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
     for name, text in range_rules():
         assert f"| {name} | {text} |" in readme, name
+
+
+def test_a_huge_core_temperature_coefficient_is_refused_not_overflowed():
+    # the fuzz campaign's case: ct0 = 1.83e300 overflowed the core loss (IEEE 754 binary64)
+    raw = tomllib.loads((resources.files("lossbudget") / "data" / "demo.toml").read_text("utf-8"))
+    raw["inductor"]["core"]["ct"] = [1.83e300, 0.0166, 8.3e-5]
+    with pytest.raises(DesignError, match=r"inductor\.core\.ct: expected coefficients"):
+        load_design(raw)
+
+
+def test_a_huge_measured_ac_resistance_ratio_is_refused():
+    raw = copy.deepcopy(DEMO)
+    raw["inductor"]["winding"] = {"rac_rdc": 1e300}
+    with pytest.raises(DesignError, match=r"inductor\.winding\.rac_rdc: expected Rac/Rdc from 1"):
+        load_design(raw)
