@@ -130,3 +130,19 @@ def test_an_inductance_of_1e308_henry_is_refused_at_load():
     raw["inductor"]["l"] = 1e308
     with pytest.raises(DesignError, match=r"inductor\.l: expected inductance .* to 10 H in"):
         load_design(raw)
+
+
+def test_point_prints_the_reason_of_a_clip(tmp_path):
+    from click.testing import CliRunner
+
+    from lossbudget.cli import main
+
+    text = (resources.files("lossbudget") / "data" / "demo.toml").read_text("utf-8")
+    steep = '[{ r = "40 mohm", at = "25 degC" }, { r = "35 mohm", at = "26 degC" }]'
+    text = text.replace('esr = { r = "4 mohm", at_f = "200 kHz" }', f"esr = {steep}")
+    assert steep in text
+    path = tmp_path / "steep.toml"
+    path.write_text(text, encoding="utf-8")
+    result = CliRunner().invoke(main, ["point", str(path), "--ambient", "45 degC"])
+    assert result.exit_code == 0, result.output
+    assert "note: extrapolated or clipped here: cout ESR clipped" in result.stdout

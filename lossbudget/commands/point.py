@@ -124,7 +124,8 @@ def point_report(budget) -> str:
         lines.append("  not modelled (the key that would enable each):")
         lines.extend(f"    {c} {m}: {key}" for c, m, key in missing)
     if budget.flags["extrapolated"].ravel()[0]:
-        lines.append("  note: a temperature law or the core-loss fit is extrapolated here")
+        why = str(np.asarray(budget.reason).ravel()[0])
+        lines.append(f"  note: extrapolated or clipped here: {why or 'a temperature law'}")
     notes = budget.provenance.get("notes", [])
     if notes:
         lines.append("")
