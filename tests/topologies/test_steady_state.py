@@ -135,3 +135,17 @@ def test_edge_charge_gap_carries_the_edge_power():
                         r_rect=TINY, vf0=0.0, p_edge=p_edge, dcm_allowed=True)
     np.testing.assert_allclose(s.i_rect.mean(), 4.0, rtol=1e-9)
     np.testing.assert_allclose(24.0 * (s.i_l.mean() - base.i_l.mean()), p_edge, rtol=1e-6)
+
+
+@pytest.mark.parametrize("i_out", [0.05, 0.2, 4.0])
+def test_boost_energy_with_edge_power_and_diode_drop(i_out):
+    """Energy conservation at the stage's terminals with negligible resistances: the input
+    power Vin·<I_L> equals Vout·I_out + Vf0·I_out + P_edge, in DCM (light load) and in CCM;
+    the edge power's extra inductor charge reaches the output node without crossing the diode
+    ([EM] ch. 2 charge balance; the first law). Before the fix the DCM branch charged the
+    diode drop on the edge charge too (about Vf0·P_edge/Vout too much input power)."""
+    p_edge, vf0 = 0.3, 0.5
+    s = STAGES["boost"](vin=24.0, vc=48.0, i_out=i_out, fsw=200e3, l=22e-6, r_sw=TINY, r_l=TINY,
+                        r_rect=TINY, vf0=vf0, p_edge=p_edge, dcm_allowed=True)
+    assert bool(s.dcm) == (i_out < 1.0)
+    np.testing.assert_allclose(24.0 * s.i_l.mean(), (48.0 + vf0) * i_out + p_edge, rtol=1e-6)
