@@ -688,6 +688,9 @@ def calibrate(
     r = model.residuals(p)
     chi2 = float(r @ r)
     dof = n_res - len(names)
+    # a board resistance below the loader's 1 µΩ floor is none at all (the fit ran to 0)
+    is_board = np.array([f.startswith("board.") for f in names])
+    p = np.where(is_board & (p * model.scale < 1e-6), 0.0, p)
     values = dict(zip(names, (p * model.scale).tolist(), strict=True))
     factors = model.factors(p).with_values({}, bench=bench.name, points=bench.size,
                                            sha256=bench.sha256, free=names)
@@ -804,7 +807,7 @@ def _notes(chi2: float, dof: int, at_bound: tuple[str, ...], fit) -> tuple[str, 
             "the free factors do not cover, or the readings are less accurate than stated"
         )
     for f in at_bound:
-        notes.append(f"{f} ended at its bound: the measurements pull it further; its standard "
+        notes.append(f"{f} ended at its bound: the best fit lies there or beyond; its standard "
                      "error is not meaningful (a mechanism may be missing from the model)")
     if not fit.success:
         notes.append(f"the fit stopped before converging: {fit.message}")
