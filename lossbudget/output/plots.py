@@ -13,6 +13,7 @@ repeat the distinction for print in grey. Every figure carries the caption line
 
 from __future__ import annotations
 
+import functools
 from pathlib import Path
 
 import numpy as np
@@ -36,6 +37,23 @@ FLAGGED_HATCH = "///"
 # --------------------------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------------------------
+
+
+def _plain_text(draw):
+    """Draw a figure with maths parsing off: every text is shown as written.
+
+    Names come from the design file, and a "$" in one must not start matplotlib's mathtext
+    (an unknown command there is an error); no figure here uses mathtext on purpose.
+    """
+
+    @functools.wraps(draw)
+    def wrapper(*args, **kwargs):
+        from matplotlib import rc_context
+
+        with rc_context({"text.parse_math": False}):
+            return draw(*args, **kwargs)
+
+    return wrapper
 
 
 def _check_path(path) -> Path:
@@ -238,6 +256,7 @@ def _dcm_field(budget: Budget) -> tuple[np.ndarray, float]:
 # --------------------------------------------------------------------------------------------
 
 
+@_plain_text
 def efficiency_map(budget: Budget, path, *, rated_load: float | None = None) -> Path:
     """Filled efficiency contours over load × input voltage.
 
@@ -335,6 +354,7 @@ def efficiency_map(budget: Budget, path, *, rated_load: float | None = None) -> 
     return _save(fig, path)
 
 
+@_plain_text
 def efficiency_curves(budget: Budget, path, *, vins=None,
                       rated_load: float | None = None) -> Path:
     """Efficiency versus load at chosen input voltages.
@@ -414,6 +434,7 @@ def efficiency_curves(budget: Budget, path, *, vins=None,
     return _save(fig, path)
 
 
+@_plain_text
 def loss_breakdown(budget: Budget, path, *, vin=None, rated_load: float | None = None,
                    min_share: float = 0.03) -> Path:
     """Stacked area of every component · mechanism loss versus load at one input voltage.
@@ -484,6 +505,7 @@ def loss_breakdown(budget: Budget, path, *, vin=None, rated_load: float | None =
     return _save(fig, path)
 
 
+@_plain_text
 def temperature_curves(budget: Budget, path, *, vin=None,
                        rated_load: float | None = None,
                        design_limits: dict[str, float] | None = None) -> Path:
