@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import importlib.resources
 import math
-import os
 import sys
 import textwrap
 from dataclasses import dataclass
@@ -23,6 +22,7 @@ from lossbudget.cautions import CAUTIONS
 from lossbudget.commands.common import (
     BadInput,
     design_argument,
+    nothing_solved,
     quantity,
     read_design,
     reports_bad_input,
@@ -31,7 +31,8 @@ from lossbudget.commands.point import point_report
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
 from lossbudget.limits import temperature_design_limits
-from lossbudget.output.files import atomic_paths
+from lossbudget.output.files import OutputSet, output_set
+from lossbudget.output.tablefiles import table_chunks, write_csv
 from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
@@ -163,42 +164,36 @@ def _progress(total_points: int):
     return report
 
 
-def _write_csv(frame, path: Path) -> Path:
-    """Write a table as CSV atomically (a temporary file beside it, then a rename)."""
-    with atomic_paths([path]) as temps:
-        frame.to_csv(temps[0], index=False)
-    return path
-
-
 def run_map(
     design: Design,
     *,
     vin: np.ndarray,
     load: np.ndarray,
     ambient: float | None,
-    out: Path,
+    files: OutputSet,
     fmt: str,
     long_table: bool,
 ) -> MapRun:
-    """Sweep, plot, tabulate and summarise a map into ``out``."""
+    """Sweep, plot, tabulate and summarise a map into an output set (moved in by its owner).
+
+    The tables are streamed to disk block by block; the files listed are where the set's
+    files end up.
+    """
     from lossbudget.output import plots
     from lossbudget.sweep import map_summary, sweep_rows, weighted_efficiency
 
     op = design.operating
-    out.mkdir(parents=True, exist_ok=True)
-    if not os.access(out, os.W_OK | os.X_OK):
-        raise PermissionError(13, "cannot write: the folder is not writable", str(out))
     budget = sweep_rows(
         design, vin=vin, load=load, ambient=ambient, progress=_progress(vin.size * load.size)
     )
     summary = map_summary(budget, rated_load=op.iout_rated)
     weighted = weighted_efficiency(design, ambient=ambient)
-    files: list[tuple[str, Path]] = []
+    written: list[tuple[str, Path]] = []
     notes: list[str] = []
     rated = op.iout_rated
-    target = {what: out / f"{stem}.{fmt}" for what, stem in FILE_NAMES.items()}
+    target = {what: files.stage(f"{stem}.{fmt}") for what, stem in FILE_NAMES.items()}
     if vin.size >= 2 and load.size >= 2:
-        files.append(
+        written.append(
             (
                 "efficiency map",
                 plots.efficiency_map(budget, target["efficiency map"], rated_load=rated),
@@ -206,7 +201,7 @@ def run_map(
         )
     else:
         notes.append("efficiency map skipped: it needs 2 or more input voltages and loads")
-    files.append(
+    written.append(
         (
             "efficiency curves",
             plots.efficiency_curves(
@@ -217,7 +212,7 @@ def run_map(
             ),
         )
     )
-    files.append(
+    written.append(
         (
             "loss breakdown",
             plots.loss_breakdown(
@@ -225,7 +220,7 @@ def run_map(
             ),
         )
     )
-    files.append(
+    written.append(
         (
             "temperatures",
             plots.temperature_curves(
@@ -240,16 +235,22 @@ def run_map(
             ),
         )
     )
-    files.append(("point table", _write_csv(budget.point_table(), out / "points.csv")))
+    written.append(("point table", write_csv(files.stage("points.csv"),
+                                             table_chunks(budget, "point_table"))))
     if summary.points <= LONG_TABLE_POINTS or long_table:
-        files.append(("loss table", _write_csv(budget.loss_table(), out / "losses.csv")))
+        written.append(("loss table", write_csv(files.stage("losses.csv"),
+                                                table_chunks(budget, "loss_table"))))
     else:
         notes.append(
             f"losses.csv skipped: {summary.points:,} points is above "
             f"{LONG_TABLE_POINTS:,} (add --long-table to write it)"
         )
     return MapRun(
-        budget=budget, summary=summary, weighted=weighted, files=tuple(files), notes=tuple(notes)
+        budget=budget,
+        summary=summary,
+        weighted=weighted,
+        files=tuple((what, files.final(path)) for what, path in written),
+        notes=tuple(notes),
     )
 
 
@@ -424,8 +425,11 @@ def map_command(
     vin = vin_axis(d, vin_range)
     load = load_points(d, load=load_range, load_pct=load_pct_range, log_load=log_load)
     amb = quantity(ambient, "temperature", "--ambient")
-    run = run_map(d, vin=vin, load=load, ambient=amb, out=out, fmt=fmt, long_table=long_table)
+    with output_set(out, create=True) as files:
+        run = run_map(d, vin=vin, load=load, ambient=amb, files=files, fmt=fmt,
+                      long_table=long_table)
     click.echo(map_report(d, run))
+    nothing_solved(run.summary.points, run.summary.flagged_points)
 
 
 _AXIS_DIMENSIONS = {
@@ -491,47 +495,44 @@ def demo_command(out: Path) -> None:
     click.echo(point_report(solve(d, vin=op.vin.nom, load_fraction=1.0)))
     click.echo("")
     click.echo("== efficiency map ==")
-    run = run_map(
-        d,
-        vin=vin_axis(d, None),
-        load=load_points(d, load=None, load_pct=None, log_load=False),
-        ambient=None,
-        out=out,
-        fmt="png",
-        long_table=False,
-    )
-    click.echo(map_report(d, run, cautions=False, files=False))
-    files = list(run.files)
-    report = None
-    click.echo("")
-    try:
-        from lossbudget.limits import check_limits
-    except ImportError:
-        click.echo("note: limit check skipped (lossbudget.limits is not available)")
-    else:
-        report = check_limits(d)
-        click.echo(
-            f"== limit check ({report.corner} part values, derating "
-            f"{report.derating}): worst status {report.worst_status} =="
+    with output_set(out, create=True) as staged:
+        run = run_map(
+            d,
+            vin=vin_axis(d, None),
+            load=load_points(d, load=None, load_pct=None, log_load=False),
+            ambient=None,
+            files=staged,
+            fmt="png",
+            long_table=False,
         )
-        click.echo(_limit_table(report))
-    try:
-        from lossbudget.output.workbook import write_workbook
-    except ImportError:
-        click.echo("note: workbook skipped (lossbudget.output.workbook is not available)")
-    else:
-        files.append(
-            (
-                "workbook",
-                write_workbook(
-                    out / "budget.xlsx",
-                    budget=run.budget,
-                    report=report,
-                    weighted=run.weighted,
-                    design=d,
-                ),
+        click.echo(map_report(d, run, cautions=False, files=False))
+        files = list(run.files)
+        report = None
+        click.echo("")
+        try:
+            from lossbudget.limits import check_limits
+        except ImportError:
+            click.echo("note: limit check skipped (lossbudget.limits is not available)")
+        else:
+            report = check_limits(d)
+            click.echo(
+                f"== limit check ({report.corner} part values, derating "
+                f"{report.derating}): worst status {report.worst_status} =="
             )
-        )
+            click.echo(_limit_table(report))
+        try:
+            from lossbudget.output.workbook import write_workbook
+        except ImportError:
+            click.echo("note: workbook skipped (lossbudget.output.workbook is not available)")
+        else:
+            workbook = write_workbook(
+                staged.stage("budget.xlsx"),
+                budget=run.budget,
+                report=report,
+                weighted=run.weighted,
+                design=d,
+            )
+            files.append(("workbook", staged.final(workbook)))
     click.echo("")
     click.echo("files:")
     click.echo(aligned_table(("what", "file"), [(w, str(p)) for w, p in files], indent="  "))

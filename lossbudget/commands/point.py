@@ -10,6 +10,7 @@ import numpy as np
 from lossbudget.cautions import CAUTIONS
 from lossbudget.commands.common import (
     BadInput,
+    NothingSolved,
     design_argument,
     quantity,
     read_design,
@@ -171,3 +172,5 @@ def point(design: Path, vin, load_, load_pct, ambient, fsw, corner) -> None:
         corner=corner,
     )
     click.echo(point_report(budget))
+    if bool(np.all(budget.flagged)):
+        raise NothingSolved(f"the point could not be solved: {np.ravel(budget.reason)[0]}")
