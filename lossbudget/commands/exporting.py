@@ -31,6 +31,7 @@ from lossbudget.commands.mapping import (
     load_points,
     vin_axis,
 )
+from lossbudget.commands.sizing import check_size, max_points_option
 from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
@@ -76,6 +77,7 @@ def _span(values: np.ndarray, dimension: str) -> str:
     is_flag=True,
     help=f"Write the loss table (.csv, .json) even above {LONG_TABLE_POINTS:,} points.",
 )
+@max_points_option
 @reports_bad_input
 def export(
     design: Path,
@@ -88,6 +90,7 @@ def export(
     corner,
     with_limits,
     long_table,
+    max_points,
 ) -> None:
     """Write the loss budget over input voltage × load as a workbook (.xlsx), CSV tables
     (.csv) or one JSON document (.json), chosen by the suffix of FILE."""
@@ -105,6 +108,8 @@ def export(
     load = load_points(d, load=load_range, load_pct=load_pct_range, log_load=log_load)
     amb = quantity(ambient, "temperature", "--ambient")
     check_target(output, suffixes=SUFFIXES)  # a folder that is missing fails before the solve
+    check_size(vin.size * load.size, output=suffix[1:], max_points=max_points,
+               shape=f"{vin.size:,} × {load.size:,}")
     budget = sweep_rows(
         d, vin=vin, load=load, ambient=amb, corner=corner, progress=_progress(vin.size * load.size)
     )

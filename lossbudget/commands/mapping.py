@@ -28,6 +28,7 @@ from lossbudget.commands.common import (
     reports_bad_input,
 )
 from lossbudget.commands.point import point_report
+from lossbudget.commands.sizing import check_size, max_points_option
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
 from lossbudget.limits import temperature_design_limits
@@ -37,6 +38,7 @@ from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
 LONG_TABLE_POINTS = 100_000
+MAX_AXIS_POINTS = 10_000_000  # an axis is built before the size budget is checked
 PROGRESS_POINTS = 20_000
 SUMMARY_ROWS = 8
 FILE_NAMES = {
@@ -69,6 +71,10 @@ def parse_range(text: str, dimension: str, option: str) -> tuple[float, float, i
             f'{option}: expected an integer point count after the second ":", '
             f'got "{parts[2].strip()}"'
         ) from None
+    if count > MAX_AXIS_POINTS:
+        raise BadInput(
+            f"{option}: expected at most {MAX_AXIS_POINTS:,} points on one axis, got {count:,}"
+        )
     return float(start), float(stop), count
 
 
@@ -415,9 +421,19 @@ def grid_options(command):
 @click.option(
     "--long-table", is_flag=True, help=f"Write losses.csv even above {LONG_TABLE_POINTS:,} points."
 )
+@max_points_option
 @reports_bad_input
 def map_command(
-    design: Path, vin_range, load_range, load_pct_range, log_load, ambient, out, fmt, long_table
+    design: Path,
+    vin_range,
+    load_range,
+    load_pct_range,
+    log_load,
+    ambient,
+    out,
+    fmt,
+    long_table,
+    max_points,
 ) -> None:
     """Efficiency map over input voltage × load: four plots, the point and loss tables
     (CSV), and a summary with the peak, the rated-load efficiency and weighted figures."""
@@ -425,6 +441,8 @@ def map_command(
     vin = vin_axis(d, vin_range)
     load = load_points(d, load=load_range, load_pct=load_pct_range, log_load=log_load)
     amb = quantity(ambient, "temperature", "--ambient")
+    check_size(vin.size * load.size, output="map", max_points=max_points,
+               shape=f"{vin.size:,} × {load.size:,}")
     with output_set(out, create=True) as files:
         run = run_map(d, vin=vin, load=load, ambient=amb, files=files, fmt=fmt,
                       long_table=long_table)
