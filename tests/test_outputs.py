@@ -412,3 +412,37 @@ def test_an_unwritable_output_folder_is_named(tmp_path):
     assert result.exit_code == 2
     assert str(blocker / "out") in result.stderr
     assert result.stderr.strip().count("\n") == 0
+
+
+def test_full_disk_while_saving_the_workbook_names_it(tmp_path, monkeypatch):
+    import openpyxl.workbook.workbook as wbmod
+
+    def full_disk(self, filename):
+        with open(filename, "wb") as handle:
+            handle.write(b"PK")  # part of a file, as a full disk would leave it
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(wbmod.Workbook, "save", full_disk)
+    target = tmp_path / "b.xlsx"
+    result = _invoke("export", str(DEMO), "-o", str(target), *SMALL, "--no-limits")
+    assert result.exit_code == 2, result.output
+    assert result.stderr.strip() == f"lossbudget: {target}: cannot write: No space left on device"
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_demo_that_fails_at_its_workbook_leaves_the_previous_folder(tmp_path, monkeypatch):
+    import openpyxl.workbook.workbook as wbmod
+
+    out = tmp_path / "demo"
+    out.mkdir()
+    (out / "points.csv").write_text("previous\n", encoding="utf-8")
+    before = _digest(out)
+
+    def full_disk(self, filename):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(wbmod.Workbook, "save", full_disk)
+    result = _invoke("demo", "--out", str(out))
+    assert result.exit_code == 2, result.output
+    assert f"{out / 'budget.xlsx'}: cannot write: No space left on device" in result.stderr
+    assert _digest(out) == before  # the plots and tables it had written were not moved in

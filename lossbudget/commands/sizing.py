@@ -40,6 +40,9 @@ DEFAULT_MAX_POINTS = 2_000_000
 XLSX_MAX_POINTS = 100_000
 """The default budget of a workbook: openpyxl writes cell by cell (about 6 min here)."""
 
+ANNOUNCE_POINTS = 20_000
+"""From this many points on, the estimate is printed on stderr before solving."""
+
 BASIS = "per-point figures of benchmarks/grid_cost.py, demo design, 2 CPUs"
 
 
@@ -73,9 +76,12 @@ def check_size(points: int, *, output: str, max_points: int | None, shape: str) 
     """
     budget = max_points if max_points is not None else (
         XLSX_MAX_POINTS if output == "xlsx" else DEFAULT_MAX_POINTS)
-    if points <= budget:
-        return
     seconds, memory = estimate(points, output)
+    if points <= budget:
+        if points >= ANNOUNCE_POINTS:
+            click.echo(f"{shape} = {points:,} points: estimated {_duration(seconds)} and "
+                       f"{memory / 1e9:.1f} GB of memory ({BASIS})", err=True)
+        return
     raise BadInput(
         f"grid of {shape} = {points:,} points is above the size budget of {budget:,} points "
         f"(estimated {_duration(seconds)} and {memory / 1e9:.1f} GB of memory; {BASIS}): "
