@@ -26,11 +26,14 @@ CASES = {
     "csv": lambda out, n: ["export", str(DEMO), "-o", str(out / "b.csv"), "--vin",
                            f"18:32:{n}", "--load-pct", f"1:100:{n}", "--max-points",
                            str(n * n)],
+    "json": lambda out, n: ["export", str(DEMO), "-o", str(out / "b.json"), "--vin",
+                            f"18:32:{n}", "--load-pct", f"1:100:{n}", "--max-points",
+                            str(n * n)],
     "xlsx": lambda out, n: ["export", str(DEMO), "-o", str(out / "b.xlsx"), "--vin",
                             f"18:32:{n}", "--load-pct", f"1:100:{n}", "--no-limits",
                             "--max-points", str(n * n)],
 }
-DEFAULT_N = {"map": 1000, "csv": 1000, "xlsx": 100}
+DEFAULT_N = {"map": 1000, "csv": 1000, "json": 300, "xlsx": 100}
 
 
 def _cli() -> list[str]:

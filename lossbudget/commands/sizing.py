@@ -24,21 +24,25 @@ class PointCost:
     bytes: float
 
 
-BASE_BYTES = 0.2e9
+BASE_BYTES = 0.15e9
 """Peak memory of a command on a tiny grid (imports, matplotlib, openpyxl). [B]"""
 
 COSTS = {
-    "map": PointCost(seconds=50e-6, bytes=1.0e3),
-    "csv": PointCost(seconds=30e-6, bytes=0.6e3),
-    "json": PointCost(seconds=60e-6, bytes=0.6e3),
-    "xlsx": PointCost(seconds=3.5e-3, bytes=8.0e3),
+    "map": PointCost(seconds=120e-6, bytes=0.9e3),
+    "csv": PointCost(seconds=180e-6, bytes=0.9e3),
+    "json": PointCost(seconds=840e-6, bytes=3.4e3),
+    "xlsx": PointCost(seconds=9.4e-3, bytes=9.2e3),
 }
-"""Per-point cost of each output, as ``benchmarks/grid_cost.py`` printed it (rounded up)."""
+"""Per-point cost of each output as ``benchmarks/grid_cost.py`` printed it on the development
+machine while other work shared its 2 CPUs (map and csv 1000 × 1000, json 300 × 300 with the
+loss table, xlsx 100 × 100): map 120.7 us and 851 B, csv 179.9 us and 858 B, json 839.7 us
+and 3419 B, xlsx 9410.7 us and 9221 B a point (rounded here). An idle machine is faster (the
+1000 × 1000 map took 51.5 s there before the tables were streamed)."""
 
 DEFAULT_MAX_POINTS = 2_000_000
 """The budget in points unless ``--max-points`` says otherwise (.xlsx: see XLSX_MAX_POINTS)."""
-XLSX_MAX_POINTS = 100_000
-"""The default budget of a workbook: openpyxl writes cell by cell (about 6 min here)."""
+XLSX_MAX_POINTS = 50_000
+"""The default budget of a workbook: openpyxl writes cell by cell (about 8 min here)."""
 
 ANNOUNCE_POINTS = 20_000
 """From this many points on, the estimate is printed on stderr before solving."""
