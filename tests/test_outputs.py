@@ -13,11 +13,13 @@ import errno
 import hashlib
 import importlib.resources
 import os
+import re
 import signal
 import subprocess
 import sys
 import threading
 import time
+import zipfile
 from pathlib import Path
 
 import numpy as np
@@ -93,6 +95,15 @@ def test_workbook_writes_names_as_text_never_as_formulas(tmp_path):
     summary = wb["Summary"]
     cells = [c for row in summary.iter_rows() for c in row if c.value == PAYLOADS["design"]]
     assert cells and all(c.data_type == "s" for c in cells)
+    # the charts: a series named after a part carries its name as a literal value (<v>);
+    # the only formulas (<f>) are the workbook's own references to its Charts and Map sheets
+    with zipfile.ZipFile(out) as archive:
+        charts = [archive.read(n).decode() for n in archive.namelist()
+                  if n.startswith("xl/charts/chart")]
+    assert charts and any("<v>=2+2</v>" in xml for xml in charts)
+    refs = [f for xml in charts for f in re.findall(r"<f>([^<]*)</f>", xml)]
+    own = re.compile(r"'(Charts|Map)'!\$[A-Z]+\$\d+(:\$[A-Z]+\$\d+)?")
+    assert refs and all(own.fullmatch(f) for f in refs), refs
 
 
 def test_csv_text_fields_are_neutralised_and_negative_numbers_stay_numbers(tmp_path):
@@ -117,8 +128,7 @@ def test_csv_text_fields_are_neutralised_and_negative_numbers_stay_numbers(tmp_p
     # the inverting rail's output is negative in the tables, and stays a number
     assert points["vout_v"].dtype.kind == "f" and (points["vout_v"] < 0).all()
     losses = pd.read_csv(tmp_path / "b-losses.csv")
-    assert "'=2+2" in set(losses["component"]) or any(
-        str(c).startswith("'=2+2") for c in losses["component"])
+    assert "'=2+2" in set(losses["component"])  # the input capacitor bank, named "=2+2"
 
 
 def test_write_csv_keeps_every_number_and_prefixes_only_text(tmp_path):
