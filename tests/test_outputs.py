@@ -456,3 +456,15 @@ def test_demo_that_fails_at_its_workbook_leaves_the_previous_folder(tmp_path, mo
     assert result.exit_code == 2, result.output
     assert f"{out / 'budget.xlsx'}: cannot write: No space left on device" in result.stderr
     assert _digest(out) == before  # the plots and tables it had written were not moved in
+
+
+def test_a_failed_map_into_a_new_folder_leaves_no_folder(tmp_path, monkeypatch):
+    def full_disk(self, path_or_buf=None, *args, **kwargs):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(pd.DataFrame, "to_csv", full_disk)
+    out = tmp_path / "new" / "out"
+    result = _invoke("map", str(DEMO), *SMALL, "--out", str(out))
+    assert result.exit_code == 2, result.output
+    assert f"{out / 'points.csv'}: cannot write: No space left on device" in result.stderr
+    assert list(tmp_path.iterdir()) == []  # the folders it made are gone again
