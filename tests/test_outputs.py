@@ -229,14 +229,27 @@ def test_map_tables_are_streamed_in_blocks(tmp_path, monkeypatch):
 def test_export_leaves_the_loss_table_out_above_the_threshold_unless_asked(tmp_path,
                                                                           monkeypatch):
     monkeypatch.setattr("lossbudget.commands.exporting.LONG_TABLE_POINTS", 5)
-    result = _invoke("export", str(DEMO), "-o", str(tmp_path / "b.csv"), *SMALL)
-    assert result.exit_code == 0, result.output
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["b-stresses.csv", "b.csv"]
-    assert "--long-table" in result.stdout
     result = _invoke("export", str(DEMO), "-o", str(tmp_path / "b.csv"), *SMALL,
                      "--long-table")
     assert result.exit_code == 0, result.output
     assert (tmp_path / "b-losses.csv").exists()
+    result = _invoke("export", str(DEMO), "-o", str(tmp_path / "b.csv"), *SMALL)
+    assert result.exit_code == 0, result.output
+    # the earlier run's loss table is not left beside the new set
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["b-stresses.csv", "b.csv"]
+    assert "--long-table" in result.stdout
+
+
+def test_a_map_that_leaves_a_file_out_removes_the_earlier_one(tmp_path, monkeypatch):
+    out = tmp_path / "out"
+    assert _invoke("map", str(DEMO), *SMALL, "--out", str(out)).exit_code == 0
+    monkeypatch.setattr("lossbudget.commands.mapping.LONG_TABLE_POINTS", 5)
+    result = _invoke("map", str(DEMO), "--vin", "24:24:1", "--load-pct", "10:100:6",
+                     "--out", str(out))
+    assert result.exit_code == 0, result.output
+    names = {p.name for p in out.iterdir()}
+    assert "losses.csv" not in names and "efficiency_map.png" not in names
+    assert len(pd.read_csv(out / "points.csv")) == 6
 
 
 # --------------------------------------------------------------------------------------------

@@ -206,6 +206,7 @@ def run_map(
             )
         )
     else:
+        files.drop(target["efficiency map"].name)  # not an earlier map's beside this set
         notes.append("efficiency map skipped: it needs 2 or more input voltages and loads")
     written.append(
         (
@@ -247,6 +248,7 @@ def run_map(
         written.append(("loss table", write_csv(files.stage("losses.csv"),
                                                 table_chunks(budget, "loss_table"))))
     else:
+        files.drop("losses.csv")  # no loss table of an earlier map beside these points
         notes.append(
             f"losses.csv skipped: {summary.points:,} points is above "
             f"{LONG_TABLE_POINTS:,} (add --long-table to write it)"

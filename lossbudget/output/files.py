@@ -101,6 +101,12 @@ class OutputSet:
         self.current = name
         return self.staging / name
 
+    def drop(self, name: str) -> None:
+        """Remove the file ``name`` from the folder when the set is moved in (a stale member
+        of an earlier set, such as a loss table this run leaves out)."""
+        self.stage(name)
+        self.current = None
+
     def final(self, path: Path) -> Path:
         """Where a staged file is moved to (other paths are returned unchanged)."""
         path = Path(path)
@@ -194,20 +200,24 @@ def _commit(files: OutputSet) -> None:
         try:
             for name in files.names:
                 new = files.staging / name
-                if not new.exists():
-                    continue
                 target = files.folder / name
+                present = os.path.lexists(target) and not target.is_dir()
+                if not new.exists() and not present:
+                    continue
                 files.current = name
                 backup = None
-                if os.path.lexists(target) and not target.is_dir():
+                if present:
                     previous.mkdir(exist_ok=True)
                     backup = previous / name
                     try:
                         os.link(target, backup, follow_symlinks=False)
                     except OSError:
                         shutil.copy2(target, backup, follow_symlinks=False)
-                os.chmod(new, _file_mode(target))
-                os.replace(new, target)
+                if new.exists():
+                    os.chmod(new, _file_mode(target))
+                    os.replace(new, target)
+                else:  # dropped from the set
+                    target.unlink()
                 done.append((target, backup))
         except BaseException as exc:
             for target, backup in reversed(done):

@@ -140,8 +140,12 @@ def write_tables(path: str | os.PathLike, *, budget: Budget,
         if target.suffix.lower() == ".csv":
             suffixes = {"point_table": "", "loss_table": "-losses", "stress_table": "-stresses"}
             written = []
-            for name in wanted:
-                staged = files.stage(f"{target.stem}{suffixes[name]}{target.suffix}")
+            for name in names:
+                member = f"{target.stem}{suffixes[name]}{target.suffix}"
+                if name not in wanted:
+                    files.drop(member)  # no loss table of an earlier run beside this set
+                    continue
+                staged = files.stage(member)
                 written.append(files.final(write_csv(staged, table_chunks(budget, name))))
             return tuple(written)
         head = {"provenance": budget.provenance, "cautions": list(CAUTIONS)}
