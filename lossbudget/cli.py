@@ -57,6 +57,13 @@ __all__ = [
 ]
 
 
+EXIT_EPILOG = "\b\nExit status:\n" + "\n".join(
+    textwrap.fill(text, width=78, initial_indent=f"  {code:>3}  ", subsequent_indent=" " * 7)
+    for code, text in EXIT_STATUSES
+)
+"""The exit statuses as the help of the group and of every command lists them."""
+
+
 class _Group(click.Group):
     """A group whose usage errors (its own and its commands') print as one line."""
 
@@ -100,10 +107,7 @@ def _one_line_usage(call: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
 @click.group(
     cls=_Group,
     context_settings={"help_option_names": ["-h", "--help"]},
-    epilog="\b\nExit status:\n" + "\n".join(
-        textwrap.fill(text, width=78, initial_indent=f"  {code:>3}  ", subsequent_indent=" " * 7)
-        for code, text in EXIT_STATUSES
-    ),
+    epilog=EXIT_EPILOG,
 )
 @click.version_option(__version__, "--version", prog_name=PROG, message="%(prog)s %(version)s")
 @click.option("--debug", is_flag=True, help="Show the traceback of an error.")
@@ -152,3 +156,6 @@ main.add_command(demo_command)
 from lossbudget.commands.exporting import export  # noqa: E402
 
 main.add_command(export)
+
+for _command in main.commands.values():
+    _command.epilog = _command.epilog or EXIT_EPILOG

@@ -481,3 +481,14 @@ def test_a_failed_map_into_a_new_folder_leaves_no_folder(tmp_path, monkeypatch):
     assert result.exit_code == 2, result.output
     assert f"{out / 'points.csv'}: cannot write: No space left on device" in result.stderr
     assert list(tmp_path.iterdir()) == []  # the folders it made are gone again
+
+
+@pytest.mark.parametrize("command", sorted(main.commands))
+def test_every_command_help_lists_the_exit_statuses(command):
+    from lossbudget.commands.common import EXIT_STATUSES
+
+    result = _invoke(command, "-h")
+    assert result.exit_code == 0
+    text = " ".join(result.stdout.split())
+    for code, meaning in EXIT_STATUSES:
+        assert f"{code} {' '.join(meaning.split()[:3])}" in text
