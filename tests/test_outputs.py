@@ -494,3 +494,16 @@ def test_every_command_help_lists_the_exit_statuses(command):
     text = " ".join(result.stdout.split())
     for code, meaning in EXIT_STATUSES:
         assert f"{code} {' '.join(meaning.split()[:3])}" in text
+
+
+def test_running_out_of_memory_is_one_line_exit_2_and_writes_nothing(tmp_path, monkeypatch):
+    def exhausted(*_args, **_kwargs):
+        raise MemoryError
+
+    monkeypatch.setattr(sys.modules["lossbudget.sweep"], "sweep_rows", exhausted)
+    out = tmp_path / "out"
+    result = _invoke("map", str(DEMO), *SMALL, "--out", str(out))
+    assert result.exit_code == 2
+    assert result.stderr.strip().startswith("lossbudget: out of memory")
+    assert result.stderr.strip().count("\n") == 0
+    assert list(tmp_path.iterdir()) == []

@@ -31,8 +31,8 @@ EXIT_INTERRUPTED = 128  # plus the signal number: 130 for SIGINT, 143 for SIGTER
 EXIT_STATUSES = (
     (EXIT_OK, "done"),
     (EXIT_LIMIT_FAILED, "a limit check failed (check)"),
-    (EXIT_BAD_INPUT, "bad input: a design file, an option or a path, or a file that cannot "
-     "be read or written (one line each, naming the file)"),
+    (EXIT_BAD_INPUT, "bad input: a design file, an option or a path, a grid above the size "
+     "budget, or a file that cannot be read or written (one line each, naming the file)"),
     (EXIT_INTERNAL, "an internal error (a bug: --debug shows the traceback)"),
     (EXIT_NOTHING_SOLVED, "no point could be solved: an unsolved point, or a map or export "
      "with every point flagged (the report and files still say why)"),
@@ -135,6 +135,14 @@ def reports_bad_input(func: F) -> F:
             _traceback_if_debug()
             name = exc.filename if exc.filename is not None else ""
             click.echo(f"{PROG}: {name}: {exc.strerror or exc}".replace(": : ", ": "), err=True)
+            sys.exit(EXIT_BAD_INPUT)
+        except MemoryError:
+            _traceback_if_debug()
+            click.echo(
+                f"{PROG}: out of memory: the grid is too large for this machine (use fewer "
+                "points; nothing was written)",
+                err=True,
+            )
             sys.exit(EXIT_BAD_INPUT)
         except Exception as exc:
             _traceback_if_debug()
