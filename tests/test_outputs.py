@@ -507,3 +507,11 @@ def test_running_out_of_memory_is_one_line_exit_2_and_writes_nothing(tmp_path, m
     assert result.stderr.strip().startswith("lossbudget: out of memory")
     assert result.stderr.strip().count("\n") == 0
     assert list(tmp_path.iterdir()) == []
+
+
+def test_a_large_grid_within_the_budget_states_its_estimate_first(tmp_path, monkeypatch):
+    monkeypatch.setattr("lossbudget.commands.sizing.ANNOUNCE_POINTS", 12)
+    result = _invoke("export", str(DEMO), "-o", str(tmp_path / "b.csv"), *SMALL)
+    assert result.exit_code == 0, result.output
+    first = result.stderr.strip().splitlines()[0]
+    assert first.startswith("3 × 4 = 12 points: estimated ") and "GB of memory" in first
