@@ -182,6 +182,7 @@ def _make_folder(folder: Path) -> list[Path]:
     except OSError as exc:
         raise with_path(exc, folder) from exc
     if not os.access(folder, os.W_OK | os.X_OK):
+        _remove_created(missing)
         raise PermissionError(13, "cannot write: the folder is not writable", str(folder))
     return missing
 
