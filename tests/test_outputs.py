@@ -515,3 +515,24 @@ def test_a_large_grid_within_the_budget_states_its_estimate_first(tmp_path, monk
     assert result.exit_code == 0, result.output
     first = result.stderr.strip().splitlines()[0]
     assert first.startswith("3 × 4 = 12 points: estimated ") and "GB of memory" in first
+
+
+def test_full_disk_at_the_third_plot_names_it_and_writes_nothing(tmp_path, monkeypatch):
+    from matplotlib.figure import Figure
+
+    real = Figure.savefig
+    calls = []
+
+    def full_disk(self, fname, *args, **kwargs):
+        calls.append(fname)
+        if len(calls) == 3:  # the loss breakdown, after the map and the curves
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+        return real(self, fname, *args, **kwargs)
+
+    monkeypatch.setattr(Figure, "savefig", full_disk)
+    out = tmp_path / "out"
+    result = _invoke("map", str(DEMO), *SMALL, "--out", str(out))
+    assert result.exit_code == 2, result.output
+    assert result.stderr.strip() == (f"lossbudget: {out / 'loss_breakdown.png'}: cannot "
+                                     "write: No space left on device")
+    assert list(tmp_path.iterdir()) == []  # not 2 of 4 plots: nothing

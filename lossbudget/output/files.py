@@ -116,6 +116,8 @@ class OutputSet:
         """The path to name in an error raised while the set was written."""
         if filename is not None:
             path = Path(filename)
+            if path.parent == self.staging and path.name in self.names:
+                return self.folder / path.name
             if self.staging not in path.parents and path != self.staging:
                 return path
         return self.folder / self.current if self.current else self.folder
