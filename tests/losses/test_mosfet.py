@@ -518,6 +518,11 @@ _CASES = {
         (_grid(10, 100), _grid(-2, 20)),
         {"t_rv": _grid(1e-9, 2e-8), "t_fi": _grid(1e-9, 2e-8), "q_node": _grid(0, 1e-7)},
     ),
+    "node_charge_energy_equivalent": (
+        m.node_charge_energy_equivalent,
+        (_grid(-10, 100),),
+        {"e_node": _grid(0, 1e-6)},
+    ),
     "reference_energy_scaled": (
         m.reference_energy_scaled,
         (_grid(1e-6, 1e-5),),
