@@ -388,38 +388,46 @@ def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
     ae_op = rc.ae if ctx.sync else None
     l_stage = ctx.l / ctx.design.inductor.count
     mode = ctx.design.operating.dcm_turn_on
-    dcm = st.dcm
-    t_idle = np.where(dcm, np.maximum(1.0 - st.duty - st.d2, 0.0) / fsw, 0.0)
-    v_b = st.v_switch_block
-    v_set = st.v_switch_settled
+    dcm = np.broadcast_to(st.dcm, np.shape(v))
+    # CCM points turn on hard from the full edge voltage: the ring's value at zero idle time
+    e_coss = mos.hard_turn_on_coss_energy(v, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op)
+    e_decay = np.zeros(np.shape(v))
+    sel = np.flatnonzero(dcm.ravel())
+    if sel.size == 0:
+        return {"e_coss": e_coss, "e_decay": e_decay}
+
+    def at(x):
+        return np.broadcast_to(x, np.shape(v)).ravel()[sel]
+
+    v_b, v_set, q_s, v_e = at(st.v_switch_block), at(st.v_switch_settled), at(q), at(v)
+    t_idle = np.maximum(1.0 - at(st.duty) - at(st.d2), 0.0) / at(fsw)
     table = rng.ring_table(a_s / (a_s + a_o))
-
-    def energies(t):
-        v_on, e_decay = rng.ring_state(
-            t, v_set=v_set[..., None] if t.ndim > v_b.ndim else v_set,
-            v_block=v_b[..., None] if t.ndim > v_b.ndim else v_b, l=l_stage, a_self=a_s,
-            a_opp=a_o, q=q[..., None] if t.ndim > v_b.ndim else q,
-            valley=mode == "valley", table=table,
-        )
-        vv = v[..., None] if t.ndim > v_b.ndim else v
-        e_coss = mos.partial_swing_coss_energy(
-            vv, v_residual=v_on, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op
-        )
-        return e_coss, e_decay
-
     if mode == "averaged":
+        # the mean over the last small-signal ring period of the idle interval
         with np.errstate(invalid="ignore", divide="ignore"):
             w0 = rng.ring_frequency_small_signal(
                 v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o
             )
         lo = np.maximum(t_idle - 2.0 * np.pi / w0, 0.0)
         frac = (np.arange(AVERAGED_SAMPLES) + 0.5) / AVERAGED_SAMPLES
-        t = lo[..., None] + (t_idle - lo)[..., None] * frac
-        e_coss, e_decay = energies(t)
-        e_coss, e_decay = e_coss.mean(axis=-1), e_decay.mean(axis=-1)
+        t = lo[:, None] + (t_idle - lo)[:, None] * frac
+        v_set, v_b, q_s, v_e = (x[:, None] for x in (v_set, v_b, q_s, v_e))
     else:
-        e_coss, e_decay = energies(t_idle)
-    return {"e_coss": e_coss, "e_decay": np.where(dcm, e_decay, 0.0)}
+        t = t_idle
+    v_on, dec = rng.ring_state(
+        t, v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o, q=q_s,
+        valley=mode == "valley", table=table,
+    )
+    on = mos.partial_swing_coss_energy(
+        v_e, v_residual=v_on, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op
+    )
+    if mode == "averaged":
+        on, dec = on.mean(axis=-1), dec.mean(axis=-1)
+    e_coss = e_coss.copy().reshape(-1)
+    e_coss[sel] = on
+    e_decay = e_decay.reshape(-1)
+    e_decay[sel] = dec
+    return {"e_coss": e_coss.reshape(np.shape(v)), "e_decay": e_decay.reshape(np.shape(v))}
 
 
 def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, ring_q, reasons=True):
@@ -1326,6 +1334,9 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
     flags["reverse_current"] = cat(lambda p: p.ev.reverse_current) & ~bad
     flags["extrapolated"] = cat(lambda p: p.ev.extrapolated) & ~bad
     provenance = _provenance(ctx, corner)
+    provenance["ring_q"] = _ring_provenance(ctx, pieces, bad.ravel())
+    if provenance["ring_q"]["dcm_points"]:
+        provenance["notes"].append(_ring_note(ctx, provenance["ring_q"]))
     return Budget(
         design_name=d.name,
         topology=d.topology,
@@ -1345,6 +1356,44 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         provenance=provenance,
         source_input_power=cat(lambda p: p.ev.source_power) * nan,
         loop_gain=cat(lambda p: p.loop_gain) * nan,
+    )
+
+
+def _ring_provenance(ctx: _Context, pieces, bad) -> dict:
+    """The DCM ring's damping as used: Q and R_ring over the solved DCM points."""
+    op = ctx.design.operating
+    if op.ring_q is not None:
+        source = "operating.ring_q, at the small-signal ring frequency at the settled voltage"
+    else:
+        source = (
+            "winding resistance at the ring frequency (Dowell; DC resistance without winding "
+            "data) + core series resistance (Steinmetz at the ring's initial current) + series "
+            "resistors in the inductor path"
+        )
+    out = {"choice": op.dcm_turn_on, "source": source, "dcm_points": 0,
+           "q": [], "r_ring_ohm": []}
+    rings = [p.ev.ring for p in pieces]
+    if any(r is None for r in rings):
+        out["source"] = "no node charge: no ring"
+        return out
+    q = np.concatenate([r[0].ravel() for r in rings])
+    r = np.concatenate([r[1].ravel() for r in rings])
+    ok = np.isfinite(q) & ~bad
+    out["dcm_points"] = int(np.count_nonzero(ok))
+    if out["dcm_points"]:
+        out["q"] = [float(q[ok].min()), float(q[ok].max())]
+        out["r_ring_ohm"] = [float(r[ok].min()), float(r[ok].max())]
+    return out
+
+
+def _ring_note(ctx: _Context, ring: dict) -> str:
+    q, r = ring["q"], ring["r_ring_ohm"]
+    span_q = f"{q[0]:.3g}" if np.isclose(q[0], q[1], rtol=5e-3) else f"{q[0]:.3g} to {q[1]:.3g}"
+    span_r = f"{r[0]:.3g}" if np.isclose(r[0], r[1], rtol=5e-3) else f"{r[0]:.3g} to {r[1]:.3g}"
+    return (
+        f"DCM turn-on: dcm_turn_on = {ring['choice']}, node ring Q = {span_q} (R_ring = "
+        f"{span_r} ohm; {ring['source']}); the ring current left at turn-on is not carried "
+        "into the next on-interval"
     )
 
 
@@ -1369,6 +1418,13 @@ def _provenance(ctx: _Context, corner: Corner) -> dict:
         "copper_ac: Dowell's 1-D layer model with the round-wire equivalent foil, summed over "
         f"{N_HARMONICS} harmonics; poor near an air gap and for single-layer toroid or drum "
         "windings",
+        "DCM node ring: damped ring of L with the nonlinear node capacitance (C ∝ v^-1/2 per "
+        "device) about the settled voltage, clamped at 0 and at the blocking voltage, tabulated "
+        "once and interpolated (Huber, Irving, Jovanović, IEEE TPEL 24(2), 2009; series RLC as "
+        "its linear limit); coss from the partial-swing charge balance at the turn-on voltage; "
+        "the decay is the inductor's ring loss",
+        "turn-off: the channel is relieved of the energy-equivalent node charge 2·E_node/V, so "
+        "that turn-off and coss count the node energy once (derived)",
         "capacitors: ESR constant over the harmonics; banks at one position share each harmonic "
         "by impedance",
         f"thermal: coupled fixed point from the ambient, error within {THERMAL_TOL} K; runaway "

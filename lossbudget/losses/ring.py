@@ -24,7 +24,7 @@ from functools import lru_cache
 import numpy as np
 from numpy.typing import ArrayLike
 
-from lossbudget.losses.mosfet import node_charge, node_energy, residual_voltage
+from lossbudget.losses.mosfet import node_charge, node_energy
 
 __all__ = [
     "core_series_resistance_steinmetz",
@@ -37,13 +37,16 @@ __all__ = [
     "ring_table",
 ]
 
-# table grid: settled values (uniform in arcsin √s), quality factors (log-uniform), phase
-TABLE_S_NODES = 33
-TABLE_Q = (0.3, 1000.0)
-TABLE_Q_NODES = 29
+# table grid: settled values (uniform in arcsin √s), quality factors (log-uniform); the
+# damped rings (Q below Q_SPLIT) in time, the others in their own phase
+TABLE_S_NODES = 41
+TABLE_Q_LOW = (0.3, 4.0, 5)
+TABLE_Q_HIGH = (2.5, 1000.0, 13)
+Q_SPLIT = 3.0
 TABLE_PERIODS = 24
-TABLE_STEPS_PER_PERIOD = 64
-_PHI_RANGE = (np.arcsin(np.sqrt(0.004)), np.arcsin(np.sqrt(0.996)))
+TABLE_STEPS_PER_PERIOD = 48
+_INTEGRATED_PERIODS = 32
+_S_RANGE = (0.004, 0.996)
 
 
 def _f(a):
@@ -293,28 +296,47 @@ def core_series_resistance_steinmetz(
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
-class RingTable:
-    """The normalised ring over settled value, Q and phase, for one split of the charge.
+class RingPart:
+    """One tabulated ring from rest: over settled value, Q and time or phase.
 
-    ``x`` is the switch voltage's deviation from the settled value over the amplitude,
-    (v − V_set)/(V_b − V_set); ``w`` the energy dissipated in R_ring so far over the ring
-    energy at the start; ``x_valley``, ``w_valley`` the same at the last valley reached (the
-    ring's own values before the first valley). Axes: settled value s = V_set/V_b (uniform in
-    arcsin √s), log Q, phase θ = ω0·t in steps of ``step``. ``u_end``, ``du_end``, ``w_end``:
-    the deviation, its θ-derivative and w at the table's end, for the continuation.
+    Values are relative, so that neighbouring settled values blend like for like: ``low``
+    and ``high`` each hold (x, w, x_valley, w_valley): the deviation of the switch voltage
+    from the settled value over the start's deviation, the energy dissipated in R_ring over
+    the ring energy at the start, and the same at the last valley reached. ``low`` (Q up to
+    4) is sampled uniformly in θ = ω0·t; ``high`` (Q from 2.5) uniformly in the ring's own
+    phase Φ (the unwrapped angle of its phase-plane trajectory), ``theta`` giving the time
+    at which each phase is reached, so that rings of neighbouring settled values blend in
+    step. ``left``: the ring energy still held at the end of ``high``, relative.
+    """
+
+    low: tuple[np.ndarray, ...]
+    high: tuple[np.ndarray, ...]
+    theta: np.ndarray
+    left: np.ndarray
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class RingTable:
+    """The normalised ring for one charge split (see :func:`ring_table`).
+
+    Axes: settled value s = V_set/V_b (uniform in arcsin √s, ``phi``), log Q (``log_q_low``,
+    ``log_q_high``), sample (``step`` apart in θ or Φ). ``top``: the ring from the blocking
+    voltage; ``bottom``: the ring from 0 V at rest, which follows a clamp at 0 V. ``margin``:
+    the energy left on reaching 0 V over the ring energy at the start, less the energy held
+    at 0 V (negative where the first descent turns above 0 V: no clamp); ``theta_c``,
+    ``w_c``: when the first descent reaches 0 V and what it has dissipated by then.
     """
 
     share_self: float
     phi: np.ndarray
-    log_q: np.ndarray
+    log_q_low: np.ndarray
+    log_q_high: np.ndarray
     step: float
-    x: np.ndarray
-    w: np.ndarray
-    x_valley: np.ndarray
-    w_valley: np.ndarray
-    u_end: np.ndarray
-    du_end: np.ndarray
-    w_end: np.ndarray
+    top: RingPart
+    bottom: RingPart
+    margin: np.ndarray
+    theta_c: np.ndarray
+    w_c: np.ndarray
 
 
 def _c_norm(s, rho):
@@ -339,15 +361,21 @@ def ring_table(share_self: float) -> RingTable:
     Notes
     -----
     With x = v/V_b, charge y = ρ√x − (1 − ρ)√(1 − x) (node charge over a_tot·√V_b), current
-    j = i·T0/(a_tot·√V_b), T0 = √(L·a_tot/√V_b), and phase θ = t/(T0·√c(s)),
+    j = i·T0/(a_tot·√V_b), T0 = √(L·a_tot/√V_b), and θ = t/(T0·√c(s)),
     c(s) = ½(ρ/√s + (1 − ρ)/√(1 − s)), the ring reads
     dy/dθ = √c·j, dj/dθ = √c·(s − x(y) − r·j), dw/dθ = √c·r·j², r = 1/(Q·√c), from
-    y = ρ (x = 1), j = 0; dy/dθ = 0 while the node is clamped at x = 0 with j < 0 or at
-    x = 1 with j > 0. x(y) is the closed-form root of the charge equation
-    (:func:`lossbudget.losses.mosfet.residual_voltage`). Classical fourth-order Runge–Kutta,
-    64 steps per small-signal period, over 24 periods; the grid of settled values and Q is
-    the table's, so this runs once per charge split (results are memoised). A Python loop
-    runs over the fixed time steps of the table, never over operating points.
+    x = 1, j = 0. The state is ψ with x = sin²ψ (dy/dψ = ρ·cos ψ + (1 − ρ)·sin ψ > 0, so the
+    infinite capacitance at either end is no singularity; ρ held within [1e-3, 1 − 1e-3]).
+    Where the first descent reaches 0 V, the switch's body diode clamps the node until the
+    current has returned to zero; the ring then starts afresh from 0 V at rest and, damped,
+    never reaches 0 V or V_b again. So two rings from rest are tabulated, from V_b and from
+    0 V, and the clamp between them is solved in closed form per point. Classical
+    fourth-order Runge–Kutta, 48 steps per small-signal period. The ring's phase is the
+    unwrapped angle of ((y − y_s)/√c, −j), which advances by 2π per cycle at any amplitude;
+    the lightly damped rings are resampled on it, so that the amplitude-dependent period of
+    the nonlinear ring does not smear the blend between neighbouring settled values. A
+    Python loop runs over the fixed steps and trajectories of the table, never over
+    operating points; the table is memoised per charge split.
 
     References
     ----------
@@ -358,82 +386,149 @@ def ring_table(share_self: float) -> RingTable:
     .. [2] E. Hairer, S. P. Nørsett, G. Wanner, *Solving Ordinary Differential Equations I*,
        Springer, 1993, §II.1 (classical Runge–Kutta method).
     """
-    return _ring_table(round(float(share_self), 12))
+    return _ring_table(round(min(max(float(share_self), 0.0), 1.0), 12))
 
 
-@lru_cache(maxsize=8)
-def _ring_table(rho: float) -> RingTable:
-    rho = min(max(rho, 0.0), 1.0)
-    phi = np.linspace(*_PHI_RANGE, TABLE_S_NODES)
-    log_q = np.linspace(np.log(TABLE_Q[0]), np.log(TABLE_Q[1]), TABLE_Q_NODES)
-    s = np.sin(phi)[:, None] ** 2 * np.ones((1, TABLE_Q_NODES))
-    q = np.exp(log_q)[None, :] * np.ones((TABLE_S_NODES, 1))
+def _phi_nodes():
+    return np.linspace(np.arcsin(np.sqrt(_S_RANGE[0])), np.arcsin(np.sqrt(_S_RANGE[1])),
+                       TABLE_S_NODES)
+
+
+def _integrate(rho, s, q, n, *, top):
+    """RK4 of the normalised ring from rest over n steps: x, w, j, phase (s × q × n)."""
+    rho = min(max(rho, 1e-3), 1.0 - 1e-3)
     sc = np.sqrt(_c_norm(s, rho))
     r = 1.0 / (q * sc)
-    y_lo, y_hi = -(1.0 - rho), rho
+    y_s = rho * np.sqrt(s) - (1.0 - rho) * np.sqrt(1.0 - s)
     h = 2.0 * np.pi / TABLE_STEPS_PER_PERIOD
-    n = TABLE_PERIODS * TABLE_STEPS_PER_PERIOD + 1
+    end = 0.5 * np.pi
 
-    def x_of(y):
-        return residual_voltage(1.0, charge_moved=rho - np.clip(y, y_lo, y_hi), a_self=rho,
-                                a_opp=1.0 - rho)
+    def rhs(psi, j):
+        sn, cs = np.sin(psi), np.cos(psi)
+        held = ((psi <= 0.0) & (j < 0.0)) | ((psi >= end) & (j > 0.0))
+        dpsi = np.where(held, 0.0, sc * j / (rho * cs + (1.0 - rho) * sn))
+        return dpsi, sc * (s - sn * sn - r * j), sc * r * j * j
 
-    def rhs(y, j):
-        x = x_of(y)
-        held = ((y <= y_lo) & (j < 0.0)) | ((y >= y_hi) & (j > 0.0))
-        dy = np.where(held, 0.0, sc * j)
-        return dy, sc * (s - x - r * j), sc * r * j * j
-
-    y = np.full(s.shape, y_hi)
+    psi = np.full(s.shape, end if top else 0.0)
     j = np.zeros(s.shape)
     w = np.zeros(s.shape)
-    xs = np.empty((*s.shape, n))
-    ws = np.empty((*s.shape, n))
-    xs[..., 0] = 1.0
-    ws[..., 0] = 0.0
+    psis, ws, js = (np.empty((n, *s.shape)) for _ in range(3))
+    psis[0], ws[0], js[0] = psi, w, j
     for k in range(1, n):
-        k1 = rhs(y, j)
-        k2 = rhs(y + 0.5 * h * k1[0], j + 0.5 * h * k1[1])
-        k3 = rhs(y + 0.5 * h * k2[0], j + 0.5 * h * k2[1])
-        k4 = rhs(y + h * k3[0], j + h * k3[1])
-        y = np.clip(y + h / 6.0 * (k1[0] + 2 * k2[0] + 2 * k3[0] + k4[0]), y_lo, y_hi)
+        k1 = rhs(psi, j)
+        k2 = rhs(np.clip(psi + 0.5 * h * k1[0], 0.0, end), j + 0.5 * h * k1[1])
+        k3 = rhs(np.clip(psi + 0.5 * h * k2[0], 0.0, end), j + 0.5 * h * k2[1])
+        k4 = rhs(np.clip(psi + h * k3[0], 0.0, end), j + h * k3[1])
+        psi = psi + h / 6.0 * (k1[0] + 2 * k2[0] + 2 * k3[0] + k4[0])
+        psis[k] = psi  # unclipped, so that the arrival at 0 V can be placed between steps
+        psi = np.clip(psi, 0.0, end)
         j = j + h / 6.0 * (k1[1] + 2 * k2[1] + 2 * k3[1] + k4[1])
         w = w + h / 6.0 * (k1[2] + 2 * k2[2] + 2 * k3[2] + k4[2])
-        xs[..., k] = x_of(y)
-        ws[..., k] = w
-    # the last valley reached: a sample no higher than its neighbours and falling into it
-    xv = xs.copy()
-    wv = ws.copy()
-    held_x = xs[..., 0].copy()
-    held_w = ws[..., 0].copy()
-    seen = np.zeros(s.shape, dtype=bool)
-    for k in range(1, n - 1):
-        low = (xs[..., k] <= xs[..., k - 1]) & (xs[..., k] <= xs[..., k + 1])
+        ws[k], js[k] = w, j
+    raw = psis
+    psis = np.clip(psis, 0.0, end)
+    sn = np.sin(psis)
+    xs = sn * sn
+    angle = np.arctan2(-js, (rho * sn - (1.0 - rho) * np.cos(psis) - y_s) / sc)
+    step = np.diff(angle, axis=0)
+    step -= 2.0 * np.pi * np.round(step / (2.0 * np.pi))
+    # the phase from the start, whichever quadrant the start lies in
+    phase = np.maximum.accumulate(
+        np.concatenate([np.zeros_like(angle[:1]), np.cumsum(step, axis=0)]), axis=0
+    )
+    return tuple(np.moveaxis(a, 0, -1) for a in (xs, ws, js, phase, raw))
+
+
+def _valleys(xs, ws, *, at_start):
+    """The voltage and dissipation at the last valley reached (the ring's own before it)."""
+    xv, wv = xs.copy(), ws.copy()
+    held_x, held_w = xs[..., 0].copy(), ws[..., 0].copy()
+    seen = np.full(xs.shape[:-1], at_start)
+    n = xs.shape[-1]
+    for k in range(1, n):
+        nxt = xs[..., min(k + 1, n - 1)]
+        low = (xs[..., k] <= xs[..., k - 1]) & (xs[..., k] <= nxt)
         low &= (xs[..., k] < xs[..., k - 1]) | (xs[..., k] <= 0.0)
         held_x = np.where(low, xs[..., k], held_x)
         held_w = np.where(low, ws[..., k], held_w)
         seen |= low
         xv[..., k] = np.where(seen, np.minimum(held_x, xs[..., k]), xs[..., k])
         wv[..., k] = np.where(seen, held_w, ws[..., k])
-    xv[..., -1] = np.where(seen, np.minimum(held_x, xs[..., -1]), xs[..., -1])
-    wv[..., -1] = np.where(seen, held_w, ws[..., -1])
-    c = _c_norm(s, rho)
-    amp = 1.0 - s
-    u0 = ring_energy(1.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)[..., None]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        u0 = np.where(u0 > 0.0, u0, 1.0)
+    return xv, wv
+
+
+def _part(rho, s, q, n_lo, *, top):
+    """Integrate and tabulate one ring from rest (see :class:`RingPart`)."""
+    n_t = TABLE_PERIODS * TABLE_STEPS_PER_PERIOD + 1
+    n_long = _INTEGRATED_PERIODS * TABLE_STEPS_PER_PERIOD + 1
+    xs, ws, js, phase, raw = _integrate(rho, s, q, n_long, top=top)
+    xv, wv = _valleys(xs, ws, at_start=not top)
+    dev = (1.0 - s) if top else -s
+    u0 = ring_energy(1.0 if top else 0.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
+    u0 = np.where(u0 > 0.0, u0, 1.0)
+    s3, d3, u3 = s[..., None], dev[..., None], u0[..., None]
+    rel = ((xs - s3) / d3, ws / u3, (xv - s3) / d3, wv / u3)
+    low = tuple(a[:, :n_lo, :n_t].astype(np.float32) for a in rel)
+    h = 2.0 * np.pi / TABLE_STEPS_PER_PERIOD
+    theta_t = h * np.arange(n_long)
+    grid = h * np.arange(n_t)
+    shape = (s.shape[0], s.shape[1] - n_lo)
+    th = np.empty((*shape, n_t))
+    high = tuple(np.empty((*shape, n_t), dtype=np.float32) for _ in rel)
+    x_end = np.empty(shape)
+    j_end = np.empty(shape)
+    for i, m in np.ndindex(*shape):
+        ph = phase[i, n_lo + m] + 1e-12 * np.arange(n_long)  # strictly increasing
+        th[i, m] = np.interp(grid, ph, theta_t, right=np.inf)
+        for dst, src in zip(high, rel, strict=True):
+            dst[i, m] = np.interp(grid, ph, src[i, n_lo + m])
+        x_end[i, m] = np.interp(grid[-1], ph, xs[i, n_lo + m])
+        j_end[i, m] = np.interp(grid[-1], ph, js[i, n_lo + m])
+    left = ring_energy(x_end, v_set=s[:, n_lo:], v_block=1.0, a_self=rho, a_opp=1.0 - rho)
+    part = RingPart(low=low, high=high, theta=th,
+                    left=(left + 0.5 * j_end * j_end) / u0[:, n_lo:])
+    if not top:
+        return part, None
+    # the first arrival at 0 V, placed between steps on the unclipped angle
+    hit = raw <= 0.0
+    first = np.where(hit.any(axis=-1), hit.argmax(axis=-1), 0)
+    k = np.maximum(first, 1)
+    p0 = np.take_along_axis(raw, (k - 1)[..., None], -1)[..., 0]
+    p1 = np.take_along_axis(raw, k[..., None], -1)[..., 0]
+    frac = np.clip(p0 / np.where(p0 > p1, p0 - p1, 1.0), 0.0, 1.0)
+    at = lambda a: (1.0 - frac) * np.take_along_axis(a, (k - 1)[..., None], -1)[..., 0] + (  # noqa: E731
+        frac * np.take_along_axis(a, k[..., None], -1)[..., 0])
+    clamped = hit.any(axis=-1)
+    j_c = at(js)
+    # the first descent's lowest point, where it turns above 0 V
+    half = np.argmax(np.diff(xs, axis=-1) > 0.0, axis=-1)
+    x_min = np.take_along_axis(xs, half[..., None], -1)[..., 0]
+    u_zero = ring_energy(0.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
+    u_min = ring_energy(x_min, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
+    margin = np.where(clamped, 0.5 * j_c * j_c, u_min - u_zero) / u0
+    return part, (margin, np.where(clamped, h * (k - 1 + frac), np.inf), at(ws) / u0)
+
+
+@lru_cache(maxsize=8)
+def _ring_table(rho: float) -> RingTable:
+    phi = _phi_nodes()
+    lq_lo = np.linspace(np.log(TABLE_Q_LOW[0]), np.log(TABLE_Q_LOW[1]), TABLE_Q_LOW[2])
+    lq_hi = np.linspace(np.log(TABLE_Q_HIGH[0]), np.log(TABLE_Q_HIGH[1]), TABLE_Q_HIGH[2])
+    s = np.sin(phi)[:, None] ** 2 * np.ones((1, lq_lo.size + lq_hi.size))
+    q = np.exp(np.concatenate([lq_lo, lq_hi]))[None, :] * np.ones_like(s)
+    top, (margin, theta_c, w_c) = _part(rho, s, q, lq_lo.size, top=True)
+    bottom, _ = _part(rho, s, q, lq_lo.size, top=False)
     return RingTable(
         share_self=rho,
         phi=phi,
-        log_q=log_q,
-        step=h,
-        x=(xs - s[..., None]) / amp[..., None],
-        w=ws / u0,
-        x_valley=(xv - s[..., None]) / amp[..., None],
-        w_valley=wv / u0,
-        u_end=(xs[..., -1] - s) / amp,
-        du_end=j / np.sqrt(c) / amp,
-        w_end=w / u0[..., 0],
+        log_q_low=lq_lo,
+        log_q_high=lq_hi,
+        step=2.0 * np.pi / TABLE_STEPS_PER_PERIOD,
+        top=top,
+        bottom=bottom,
+        margin=margin,
+        theta_c=theta_c,
+        w_c=w_c,
     )
 
 
@@ -442,6 +537,108 @@ def _weights(value, start, step, count):
     i0 = np.clip(np.floor(pos), 0, count - 2).astype(np.intp)
     frac = np.clip(pos - i0, 0.0, 1.0)
     return i0, frac
+
+
+def _corners(i_s, f_s, i_q, f_q):
+    """The four table corners around each point and their bilinear weights."""
+    return [
+        (i_s + ds, i_q + dq, (f_s if ds else 1.0 - f_s) * (f_q if dq else 1.0 - f_q))
+        for ds in (0, 1)
+        for dq in (0, 1)
+    ]
+
+
+def _flat_corners(i_s, f_s, i_q, f_q, n_q, n_t):
+    """Flat offsets into a (s, q, sample) table of the four corners, and their weights."""
+    return [((ii * n_q + qi) * n_t, wgt) for ii, qi, wgt in _corners(i_s, f_s, i_q, f_q)]
+
+
+def _blend(flat, corners, k):
+    out = corners[0][1] * flat[corners[0][0] + k]
+    for base, wgt in corners[1:]:
+        out = out + wgt * flat[base + k]
+    return out
+
+
+def _lookup_low(tab, part, theta, i_s, f_s, lq, *, valley):
+    """Damped rings (Q ≤ 3): linear in θ."""
+    pick = 2 if valley else 0
+    xa, wa = part.low[pick], part.low[pick + 1]
+    n_q, n_t = xa.shape[1], xa.shape[2]
+    i_q, f_q = _weights(lq, tab.log_q_low[0], tab.log_q_low[1] - tab.log_q_low[0], n_q)
+    i_t, f_t = _weights(theta, 0.0, tab.step, n_t)
+    corners = _flat_corners(i_s, f_s, i_q, f_q, n_q, n_t)
+    xf, wf = xa.ravel(), wa.ravel()
+    x = (1.0 - f_t) * _blend(xf, corners, i_t) + f_t * _blend(xf, corners, i_t + 1)
+    w = (1.0 - f_t) * _blend(wf, corners, i_t) + f_t * _blend(wf, corners, i_t + 1)
+    # past 24 periods a damped ring (Q ≤ 3) has settled: e^(−24π/3) ≈ 1e-11
+    return np.where(theta > tab.step * (n_t - 1), 0.0, x), w
+
+
+def _lookup_high(tab, part, theta, i_s, f_s, lq, qq, *, valley):
+    """Lightly damped rings: in their own phase, the phase reached at θ found by bisection."""
+    pick = 2 if valley else 0
+    xa, wa = part.high[pick], part.high[pick + 1]
+    n_q, n_t = xa.shape[1], xa.shape[2]
+    i_q, f_q = _weights(lq, tab.log_q_high[0], tab.log_q_high[1] - tab.log_q_high[0], n_q)
+    corners = _flat_corners(i_s, f_s, i_q, f_q, n_q, n_t)
+    tf, xf, wf = part.theta.ravel(), xa.ravel(), wa.ravel()
+    lo = np.zeros(np.shape(theta), dtype=np.intp)
+    hi = np.full(np.shape(theta), n_t - 1, dtype=np.intp)
+    th_end = _blend(tf, corners, hi)
+    for _ in range(int(np.ceil(np.log2(n_t)))):
+        mid = (lo + hi) // 2
+        below = _blend(tf, corners, mid) <= theta
+        lo = np.where(below, mid, lo)
+        hi = np.where(below, hi, mid)
+    hi = np.minimum(lo + 1, n_t - 1)
+    th_lo, th_hi = _blend(tf, corners, lo), _blend(tf, corners, hi)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frac = np.clip(np.where(th_hi > th_lo, (theta - th_lo) / (th_hi - th_lo), 0.0), 0, 1)
+    x = (1.0 - frac) * _blend(xf, corners, lo) + frac * _blend(xf, corners, hi)
+    w = (1.0 - frac) * _blend(wf, corners, lo) + frac * _blend(wf, corners, hi)
+    # past the table: the last cycle repeats, decaying at the small-signal rate
+    beyond = theta > th_end
+    if np.any(beyond):
+        per = TABLE_STEPS_PER_PERIOD
+        k0 = n_t - 1 - per
+        th_k0 = _blend(tf, corners, k0)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            cyc = np.where(th_end > th_k0, th_end - th_k0, 2.0 * np.pi)
+            d_theta = np.where(beyond, theta - th_end, 0.0)
+            pos = np.mod(d_theta, cyc) / cyc * per
+        kk = np.minimum(k0 + np.floor(pos).astype(np.intp), n_t - 2)
+        fk = pos - np.floor(pos)
+        if valley:
+            x_rep = np.min(np.stack([_blend(xf, corners, k) for k in range(k0, n_t)], axis=-1),
+                           axis=-1)
+        else:
+            x_rep = (1.0 - fk) * _blend(xf, corners, kk) + fk * _blend(xf, corners, kk + 1)
+        x_rep = x_rep * np.exp(-d_theta / (2.0 * qq))
+        left_end = _blend(part.left.ravel(), [(b // n_t, wgt) for b, wgt in corners], 0)
+        w_rep = _blend(wf, corners, n_t - 1) + left_end * (1.0 - np.exp(-d_theta / qq))
+        x = np.where(beyond, x_rep, x)
+        w = np.where(beyond, w_rep, w)
+    return x, w
+
+
+def _lookup(tab: RingTable, part: RingPart, theta, i_s, f_s, lq, qq, *, valley):
+    """Relative deviation and dissipation of one tabulated ring at θ (flat arrays)."""
+    x = np.zeros(np.shape(theta))
+    w = np.zeros(np.shape(theta))
+    damped = qq <= Q_SPLIT
+    for sel, low in ((np.flatnonzero(damped), True), (np.flatnonzero(~damped), False)):
+        if sel.size == 0:
+            continue
+        if low:
+            xs, ws = _lookup_low(tab, part, theta[sel], i_s[sel], f_s[sel], lq[sel],
+                                 valley=valley)
+        else:
+            xs, ws = _lookup_high(tab, part, theta[sel], i_s[sel], f_s[sel], lq[sel], qq[sel],
+                                  valley=valley)
+        x[sel] = xs
+        w[sel] = ws
+    return x, w
 
 
 def ring_state(
@@ -489,14 +686,18 @@ def ring_state(
 
     Notes
     -----
-    Interpolated in the normalised table of :func:`ring_table`: linear in arcsin √s, log Q
-    and θ = ω0·t (64 samples per small-signal period). s is held within [0.004, 0.996] and Q
-    within [0.3, 1000]. Past 24 small-signal periods the ring continues on its linear form
-    about V_set, u'' + u'/Q + u = 0 in θ from the table's last state (the large-amplitude
-    nonlinearity has decayed by then; Q ≤ ½ is taken as settled), and its dissipation as the
-    fall of ½·c·(u² + u'²); there the last valley is taken at the decaying envelope,
-    V_set − A·e^(−θ/2Q), which lies at or below the voltage itself. With no node charge the
-    node sits at V_set and dissipates nothing.
+    Interpolated in the normalised table of :func:`ring_table`, bilinear in arcsin √s and
+    log Q; for Q ≤ 3 linear in θ = ω0·t, above it in the ring's own phase (the phase whose
+    blended time equals θ is found by bisection). Where the first descent reaches 0 V
+    (blended energy margin above zero) the body diode holds the node there while the current
+    returns to zero, j(θ) = s/r + (j_c − s/r)·e^(−√c·r·(θ − θ_c)) in closed form, with its
+    dissipation ∫√c·r·j² dθ; the energy the current returns to the source meanwhile is no
+    loss. Then the ring from 0 V at rest follows. s is held within [0.004, 0.996] and Q
+    within [0.3, 1000]. Past the table (24 small-signal periods, or 24 cycles of the ring)
+    the last tabulated cycle repeats at its last rate with its deviation from V_set decaying
+    as e^(−Δθ/2Q) and the energy left as e^(−Δθ/Q) (the small-signal decay); the last valley
+    there is the lowest point of that cycle, decayed likewise. With no node charge the node
+    sits at V_set and dissipates nothing.
 
     References
     ----------
@@ -506,74 +707,87 @@ def ring_state(
        (REFERENCES.md §13.1); SPEC §2.3.
     """
     a_tot = float(a_self) + float(a_opp)
-    t, v_set, v_block, q = np.broadcast_arrays(_f(t), _f(v_set), _f(v_block), _f(q))
+    t, v_set, v_block, q, l = np.broadcast_arrays(_f(t), _f(v_set), _f(v_block), _f(q), _f(l))
+    shape = np.shape(t)
     if a_tot <= 0.0:
-        return np.clip(v_set, 0.0, v_block).copy(), np.zeros(np.shape(t))
+        return np.clip(v_set, 0.0, v_block).copy(), np.zeros(shape)
+    t, v_set, v_block, q, l = (np.ravel(a) for a in (t, v_set, v_block, q, l))
     tab = table if table is not None else ring_table(float(a_self) / a_tot)
     rho = tab.share_self
     with np.errstate(invalid="ignore", divide="ignore"):
         s_raw = v_set / v_block
-        ok = np.isfinite(s_raw) & (v_block > 0.0) & np.isfinite(t) & np.isfinite(q)
-        s = np.clip(np.where(ok, s_raw, 0.5), np.sin(_PHI_RANGE[0]) ** 2,
-                    np.sin(_PHI_RANGE[1]) ** 2)
+        ok = np.isfinite(s_raw) & (v_block > 0.0) & np.isfinite(t) & np.isfinite(q) & (q > 0)
+        s = np.clip(np.where(ok, s_raw, 0.5), *_S_RANGE)
         c = _c_norm(s, rho)
-        t0 = np.sqrt(_f(l) * a_tot / np.sqrt(np.where(ok, v_block, 1.0)))
+        t0 = np.sqrt(l * a_tot / np.sqrt(np.where(ok, v_block, 1.0)))
         theta = np.where(ok, np.maximum(t, 0.0), 0.0) / (t0 * np.sqrt(c))
-        qq = np.clip(np.where(ok, q, 1.0), *TABLE_Q)
+        qq = np.clip(np.where(ok, q, 1.0), TABLE_Q_LOW[0], TABLE_Q_HIGH[1])
     phi = np.arcsin(np.sqrt(s))
     i_s, f_s = _weights(phi, tab.phi[0], tab.phi[1] - tab.phi[0], tab.phi.size)
-    i_q, f_q = _weights(np.log(qq), tab.log_q[0], tab.log_q[1] - tab.log_q[0], tab.log_q.size)
-    n_t = tab.x.shape[-1]
-    i_t, f_t = _weights(theta, 0.0, tab.step, n_t)
-    xs_arr, ws_arr = (tab.x_valley, tab.w_valley) if valley else (tab.x, tab.w)
-    x = np.zeros(np.shape(s))
-    w = np.zeros(np.shape(s))
-    u_end = np.zeros(np.shape(s))
-    du_end = np.zeros(np.shape(s))
-    w_end = np.zeros(np.shape(s))
-    for ds, ws_ in ((0, 1.0 - f_s), (1, f_s)):
-        for dq, wq in ((0, 1.0 - f_q), (1, f_q)):
-            wgt = ws_ * wq
-            ii, qi = i_s + ds, i_q + dq
-            x += wgt * ((1.0 - f_t) * xs_arr[ii, qi, i_t] + f_t * xs_arr[ii, qi, i_t + 1])
-            w += wgt * ((1.0 - f_t) * ws_arr[ii, qi, i_t] + f_t * ws_arr[ii, qi, i_t + 1])
-            u_end += wgt * tab.u_end[ii, qi]
-            du_end += wgt * tab.du_end[ii, qi]
-            w_end += wgt * tab.w_end[ii, qi]
-    # table values are relative: deviation over the amplitude, energy over the initial
-    # ring energy, so that neighbouring settled values blend like for like
-    amp = 1.0 - s
-    u_scale = ring_energy(1.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
-    x = s + amp * x
-    w = w * u_scale
-    w_end = w_end * u_scale
-    u_end = u_end * amp
-    du_end = du_end * amp
-    # past the table: the linear ring about s from the table's last state
-    theta_end = tab.step * (n_t - 1)
-    past = theta > theta_end
-    tau = np.where(past, theta - theta_end, 0.0)
-    sig = 0.5 / qq
-    under = qq > 0.5
-    wd = np.sqrt(np.where(under, 1.0 - sig * sig, 1.0))
-    decay = np.exp(-sig * tau)
-    b = (du_end + sig * u_end) / wd
-    u = np.where(under, decay * (u_end * np.cos(wd * tau) + b * np.sin(wd * tau)), 0.0)
-    du = np.where(
-        under, decay * (du_end * np.cos(wd * tau) - (u_end + sig * du_end) / wd * np.sin(wd * tau)),
-        0.0,
+    lq = np.log(qq)
+    u_top = ring_energy(1.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
+    u_bot = ring_energy(0.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
+    # does the first descent reach 0 V? blended over the corners of both Q grids
+    i_ql, f_ql = _weights(lq, tab.log_q_low[0], tab.log_q_low[1] - tab.log_q_low[0],
+                          tab.log_q_low.size)
+    i_qh, f_qh = _weights(lq, tab.log_q_high[0], tab.log_q_high[1] - tab.log_q_high[0],
+                          tab.log_q_high.size)
+    damped = qq <= Q_SPLIT
+    n_lo = tab.log_q_low.size
+    i_qc = np.where(damped, i_ql, i_qh + n_lo)
+    f_qc = np.where(damped, f_ql, f_qh)
+    corners = _corners(i_s, f_s, i_qc, f_qc)
+    margin = sum(wgt * tab.margin[ii, qi] for ii, qi, wgt in corners)
+    clamped = margin > 0.0
+    # when it reaches 0 V: blended over the corners that clamp
+    wsum = sum(wgt * (tab.margin[ii, qi] > 0) for ii, qi, wgt in corners)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        theta_c = sum(np.where(tab.margin[ii, qi] > 0, wgt * tab.theta_c[ii, qi], 0.0)
+                      for ii, qi, wgt in corners) / wsum
+        w_c = sum(np.where(tab.margin[ii, qi] > 0, wgt * tab.w_c[ii, qi], 0.0)
+                  for ii, qi, wgt in corners) / wsum
+    theta_c = np.where(clamped & np.isfinite(theta_c), theta_c, np.inf)
+    # the clamp at 0 V, closed form
+    sc = np.sqrt(c)
+    r = 1.0 / (qq * sc)
+    j_c = -np.sqrt(2.0 * np.maximum(margin, 0.0) * u_top)
+    b = s / r
+    d = j_c - b
+    a = sc * r
+    span = np.log1p(-r * j_c / s) / a
+    in_clamp = clamped & (theta >= theta_c)
+    tau = np.clip(np.where(in_clamp, theta - theta_c, 0.0), 0.0, span)
+    w_clamp = sc * r * (b * b * tau + 2.0 * b * d * (-np.expm1(-a * tau)) / a
+                        + d * d * (-np.expm1(-2.0 * a * tau)) / (2.0 * a))
+    after = in_clamp & (theta - theta_c > span)
+    # the two rings from rest
+    x_top = np.zeros(np.shape(theta))
+    w_top = np.zeros(np.shape(theta))
+    sel = np.flatnonzero(~in_clamp)
+    if sel.size:
+        x_top[sel], w_top[sel] = _lookup(tab, tab.top, theta[sel], i_s[sel], f_s[sel], lq[sel],
+                                         qq[sel], valley=valley)
+    x_bot = np.zeros(np.shape(theta))
+    w_bot = np.zeros(np.shape(theta))
+    sel = np.flatnonzero(after)
+    if sel.size:
+        x_bot[sel], w_bot[sel] = _lookup(
+            tab, tab.bottom, theta[sel] - theta_c[sel] - span[sel], i_s[sel], f_s[sel],
+            lq[sel], qq[sel], valley=valley,
+        )
+    dev_top = x_top * (1.0 - s)
+    dev_bot = -x_bot * s
+    dev = np.where(after, dev_bot, np.where(in_clamp, -s, dev_top))
+    w = np.where(
+        in_clamp,
+        w_c * u_top + w_clamp + np.where(after, w_bot * u_bot, 0.0),
+        w_top * u_top,
     )
-    e0 = 0.5 * c * (u_end * u_end + du_end * du_end)
-    e1 = 0.5 * c * (u * u + du * du)
-    w_lin = w_end + np.maximum(e0 - e1, 0.0)
-    x_lin = u + s
     if valley:
-        env = np.where(under, decay * np.sqrt(u_end * u_end + b * b), 0.0)
-        x_lin = np.minimum(s - env, x_lin)
-    x = np.where(past, np.clip(x_lin, 0.0, 1.0), x)
-    w = np.where(past, w_lin, w)
-    x = np.where(ok, x, np.nan)
-    e_scale = a_tot * np.where(ok, v_block, np.nan) ** 1.5
+        # a turn-on at the clamp window or after it: the last valley is at least 0 V there
+        w = np.where(in_clamp & ~after, w_c * u_top + w_clamp, w)
+        dev = np.where(in_clamp & ~after, -s, dev)
+    x = np.clip(s + dev, 0.0, 1.0)
     v = np.where(ok, x * v_block, np.nan)
-    # the table's s is clipped at its ends: keep the settled voltage itself there
-    return v, w * e_scale
+    e = np.where(ok, w * a_tot * np.where(ok, v_block, np.nan) ** 1.5, np.nan)
+    return v.reshape(shape), e.reshape(shape)
