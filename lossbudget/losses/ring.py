@@ -24,7 +24,7 @@ from functools import lru_cache
 import numpy as np
 from numpy.typing import ArrayLike
 
-from lossbudget.losses.mosfet import node_charge, node_energy
+from lossbudget.losses.mosfet import node_charge, node_energy, residual_voltage
 
 __all__ = [
     "core_series_resistance_steinmetz",
@@ -300,9 +300,9 @@ class RingPart:
     """One tabulated ring from rest: over settled value, Q and time or phase.
 
     Values are relative, so that neighbouring settled values blend like for like: ``low``
-    and ``high`` each hold (x, w, x_valley, w_valley): the deviation of the switch voltage
-    from the settled value over the start's deviation, the energy dissipated in R_ring over
-    the ring energy at the start, and the same at the last valley reached. ``low`` (Q up to
+    and ``high`` each hold (y, w, y_valley, w_valley): the node charge's deviation from its
+    settled value over the start's deviation, the energy dissipated in R_ring over the ring
+    energy at the start, and the same at the last valley reached. ``low`` (Q up to
     4) is sampled uniformly in θ = ω0·t; ``high`` (Q from 2.5) uniformly in the ring's own
     phase Φ (the unwrapped angle of its phase-plane trajectory), ``theta`` giving the time
     at which each phase is reached, so that rings of neighbouring settled values blend in
@@ -339,6 +339,17 @@ class RingTable:
     w_c: np.ndarray
 
 
+def _y_of_x(x, rho):
+    """Normalised node charge y = ρ√x − (1 − ρ)√(1 − x) at x = v/V_b."""
+    return rho * np.sqrt(x) - (1.0 - rho) * np.sqrt(1.0 - x)
+
+
+def _x_of_y(y, rho):
+    """Inverse of :func:`_y_of_x` (closed form, :func:`residual_voltage`)."""
+    y = np.clip(y, -(1.0 - rho), rho)
+    return residual_voltage(1.0, charge_moved=rho - y, a_self=rho, a_opp=1.0 - rho)
+
+
 def _c_norm(s, rho):
     """C_node(V_set)·√V_b/a_tot at s = V_set/V_b."""
     return 0.5 * (rho / np.sqrt(s) + (1.0 - rho) / np.sqrt(1.0 - s))
@@ -365,7 +376,8 @@ def ring_table(share_self: float) -> RingTable:
     c(s) = ½(ρ/√s + (1 − ρ)/√(1 − s)), the ring reads
     dy/dθ = √c·j, dj/dθ = √c·(s − x(y) − r·j), dw/dθ = √c·r·j², r = 1/(Q·√c), from
     x = 1, j = 0. The state is ψ with x = sin²ψ (dy/dψ = ρ·cos ψ + (1 − ρ)·sin ψ > 0, so the
-    infinite capacitance at either end is no singularity; ρ held within [1e-3, 1 − 1e-3]).
+    infinite capacitance at either end is no singularity), or the charge y itself where one
+    device holds under 1 % of the charge (x(y) then in closed form per step).
     Where the first descent reaches 0 V, the switch's body diode clamps the node until the
     current has returned to zero; the ring then starts afresh from 0 V at rest and, damped,
     never reaches 0 V or V_b again. So two rings from rest are tabulated, from V_b and from
@@ -396,40 +408,57 @@ def _phi_nodes():
 
 def _integrate(rho, s, q, n, *, top):
     """RK4 of the normalised ring from rest over n steps: x, w, j, phase (s × q × n)."""
-    rho = min(max(rho, 1e-3), 1.0 - 1e-3)
     sc = np.sqrt(_c_norm(s, rho))
     r = 1.0 / (q * sc)
     y_s = rho * np.sqrt(s) - (1.0 - rho) * np.sqrt(1.0 - s)
     h = 2.0 * np.pi / TABLE_STEPS_PER_PERIOD
     end = 0.5 * np.pi
 
-    def rhs(psi, j):
-        sn, cs = np.sin(psi), np.cos(psi)
-        held = ((psi <= 0.0) & (j < 0.0)) | ((psi >= end) & (j > 0.0))
-        dpsi = np.where(held, 0.0, sc * j / (rho * cs + (1.0 - rho) * sn))
-        return dpsi, sc * (s - sn * sn - r * j), sc * r * j * j
+    # the state: ψ with x = sin²ψ, where both devices hold charge (dy/dψ = ρ·cos ψ +
+    # (1 − ρ)·sin ψ > 0, so the infinite capacitance at either end is no singularity);
+    # the charge y itself where one device holds (nearly) none
+    by_angle = 0.01 <= rho <= 0.99
+    y_lo, y_hi = -(1.0 - rho), rho
 
-    psi = np.full(s.shape, end if top else 0.0)
+    def rhs(z, j):
+        if by_angle:
+            sn, cs = np.sin(z), np.cos(z)
+            x = sn * sn
+            dz = sc * j / (rho * cs + (1.0 - rho) * sn)
+            held = ((z <= 0.0) & (j < 0.0)) | ((z >= end) & (j > 0.0))
+        else:
+            x = _x_of_y(z, rho)
+            dz = sc * j
+            held = ((z <= y_lo) & (j < 0.0)) | ((z >= y_hi) & (j > 0.0))
+        return np.where(held, 0.0, dz), sc * (s - x - r * j), sc * r * j * j
+
+    z_lo, z_hi = (0.0, end) if by_angle else (y_lo, y_hi)
+    psi = np.full(s.shape, z_hi if top else z_lo)
     j = np.zeros(s.shape)
     w = np.zeros(s.shape)
     psis, ws, js = (np.empty((n, *s.shape)) for _ in range(3))
     psis[0], ws[0], js[0] = psi, w, j
     for k in range(1, n):
         k1 = rhs(psi, j)
-        k2 = rhs(np.clip(psi + 0.5 * h * k1[0], 0.0, end), j + 0.5 * h * k1[1])
-        k3 = rhs(np.clip(psi + 0.5 * h * k2[0], 0.0, end), j + 0.5 * h * k2[1])
-        k4 = rhs(np.clip(psi + h * k3[0], 0.0, end), j + h * k3[1])
+        k2 = rhs(np.clip(psi + 0.5 * h * k1[0], z_lo, z_hi), j + 0.5 * h * k1[1])
+        k3 = rhs(np.clip(psi + 0.5 * h * k2[0], z_lo, z_hi), j + 0.5 * h * k2[1])
+        k4 = rhs(np.clip(psi + h * k3[0], z_lo, z_hi), j + h * k3[1])
         psi = psi + h / 6.0 * (k1[0] + 2 * k2[0] + 2 * k3[0] + k4[0])
         psis[k] = psi  # unclipped, so that the arrival at 0 V can be placed between steps
-        psi = np.clip(psi, 0.0, end)
+        psi = np.clip(psi, z_lo, z_hi)
         j = j + h / 6.0 * (k1[1] + 2 * k2[1] + 2 * k3[1] + k4[1])
         w = w + h / 6.0 * (k1[2] + 2 * k2[2] + 2 * k3[2] + k4[2])
         ws[k], js[k] = w, j
-    raw = psis
-    psis = np.clip(psis, 0.0, end)
-    sn = np.sin(psis)
-    xs = sn * sn
-    angle = np.arctan2(-js, (rho * sn - (1.0 - rho) * np.cos(psis) - y_s) / sc)
+    raw = psis - z_lo  # ≤ 0 where the node has reached 0 V
+    psis = np.clip(psis, z_lo, z_hi)
+    if by_angle:
+        sn = np.sin(psis)
+        xs = sn * sn
+        ys = rho * sn - (1.0 - rho) * np.cos(psis)
+    else:
+        xs = _x_of_y(psis, rho)
+        ys = psis
+    angle = np.arctan2(-js, (ys - y_s) / sc)
     step = np.diff(angle, axis=0)
     step -= 2.0 * np.pi * np.round(step / (2.0 * np.pi))
     # the phase from the start, whichever quadrant the start lies in
@@ -463,18 +492,21 @@ def _part(rho, s, q, n_lo, *, top):
     n_long = _INTEGRATED_PERIODS * TABLE_STEPS_PER_PERIOD + 1
     xs, ws, js, phase, raw = _integrate(rho, s, q, n_long, top=top)
     xv, wv = _valleys(xs, ws, at_start=not top)
-    dev = (1.0 - s) if top else -s
+    # the node charge, relative to its start: it leaves the start ∝ t² (the voltage of a
+    # device at 0 V only ∝ t⁴), which a linear blend in time keeps smooth
+    y_s = _y_of_x(s, rho)
+    dev = (_y_of_x(1.0 if top else 0.0, rho) - y_s)[..., None]
     u0 = ring_energy(1.0 if top else 0.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
     u0 = np.where(u0 > 0.0, u0, 1.0)
-    s3, d3, u3 = s[..., None], dev[..., None], u0[..., None]
-    rel = ((xs - s3) / d3, ws / u3, (xv - s3) / d3, wv / u3)
-    low = tuple(a[:, :n_lo, :n_t].astype(np.float32) for a in rel)
+    y3, u3 = y_s[..., None], u0[..., None]
+    rel = ((_y_of_x(xs, rho) - y3) / dev, ws / u3, (_y_of_x(xv, rho) - y3) / dev, wv / u3)
+    low = tuple(a[:, :n_lo, :n_t] for a in rel)
     h = 2.0 * np.pi / TABLE_STEPS_PER_PERIOD
     theta_t = h * np.arange(n_long)
     grid = h * np.arange(n_t)
     shape = (s.shape[0], s.shape[1] - n_lo)
     th = np.empty((*shape, n_t))
-    high = tuple(np.empty((*shape, n_t), dtype=np.float32) for _ in rel)
+    high = tuple(np.empty((*shape, n_t)) for _ in rel)
     x_end = np.empty(shape)
     j_end = np.empty(shape)
     for i, m in np.ndindex(*shape):
@@ -569,7 +601,8 @@ def _lookup_low(tab, part, theta, i_s, f_s, lq, *, valley):
     i_t, f_t = _weights(theta, 0.0, tab.step, n_t)
     corners = _flat_corners(i_s, f_s, i_q, f_q, n_q, n_t)
     xf, wf = xa.ravel(), wa.ravel()
-    x = (1.0 - f_t) * _blend(xf, corners, i_t) + f_t * _blend(xf, corners, i_t + 1)
+    g_t = np.where(i_t == 0, f_t * f_t, f_t)  # the charge leaves its rest ∝ t²
+    x = (1.0 - g_t) * _blend(xf, corners, i_t) + g_t * _blend(xf, corners, i_t + 1)
     w = (1.0 - f_t) * _blend(wf, corners, i_t) + f_t * _blend(wf, corners, i_t + 1)
     # past 24 periods a damped ring (Q ≤ 3) has settled: e^(−24π/3) ≈ 1e-11
     return np.where(theta > tab.step * (n_t - 1), 0.0, x), w
@@ -595,7 +628,8 @@ def _lookup_high(tab, part, theta, i_s, f_s, lq, qq, *, valley):
     th_lo, th_hi = _blend(tf, corners, lo), _blend(tf, corners, hi)
     with np.errstate(invalid="ignore", divide="ignore"):
         frac = np.clip(np.where(th_hi > th_lo, (theta - th_lo) / (th_hi - th_lo), 0.0), 0, 1)
-    x = (1.0 - frac) * _blend(xf, corners, lo) + frac * _blend(xf, corners, hi)
+    g = np.where(lo == 0, frac * frac, frac)  # the charge leaves its rest ∝ t²
+    x = (1.0 - g) * _blend(xf, corners, lo) + g * _blend(xf, corners, hi)
     w = (1.0 - frac) * _blend(wf, corners, lo) + frac * _blend(wf, corners, hi)
     # past the table: the last cycle repeats, decaying at the small-signal rate
     beyond = theta > th_end
@@ -782,9 +816,10 @@ def ring_state(
             tab, tab.bottom, theta[sel] - theta_c[sel] - span[sel], i_s[sel], f_s[sel],
             lq[sel], qq[sel], valley=valley,
         )
-    dev_top = x_top * (1.0 - s)
-    dev_bot = -x_bot * s
-    dev = np.where(after, dev_bot, np.where(in_clamp, -s, dev_top))
+    y_s = _y_of_x(s, rho)
+    x_top = _x_of_y(y_s + x_top * (rho - y_s), rho)
+    x_bot = _x_of_y(y_s + x_bot * (-(1.0 - rho) - y_s), rho)
+    dev = np.where(after, x_bot - s, np.where(in_clamp, -s, x_top - s))
     w = np.where(
         in_clamp,
         w_c * u_top + w_clamp + np.where(after, w_bot * u_bot, 0.0),
