@@ -18,7 +18,7 @@ says so). Every function broadcasts with numpy's rules.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import lru_cache
 
 import numpy as np
@@ -355,8 +355,8 @@ def _c_norm(s, rho):
     return 0.5 * (rho / np.sqrt(s) + (1.0 - rho) / np.sqrt(1.0 - s))
 
 
-def ring_table(share_self: float) -> RingTable:
-    """Integrate the normalised nonlinear ring once, over the table grid.
+def ring_table(share_self: float) -> RingCache:
+    """The normalised nonlinear ring of one charge split, integrated over the table grid.
 
     Parameters
     ----------
@@ -366,8 +366,9 @@ def ring_table(share_self: float) -> RingTable:
 
     Returns
     -------
-    RingTable
-        The tabulated trajectories (see :class:`RingTable`). [-]
+    RingCache
+        The table, memoised per charge split; its settled-value nodes are integrated as the
+        operating points first need them, a batch at a time (see :class:`RingTable`). [-]
 
     Notes
     -----
@@ -433,22 +434,34 @@ def _integrate(rho, s, q, n, *, top):
         return np.where(held, 0.0, dz), sc * (s - x - r * j), sc * r * j * j
 
     z_lo, z_hi = (0.0, end) if by_angle else (y_lo, y_hi)
-    psi = np.full(s.shape, z_hi if top else z_lo)
+    # RK4 at two table samples a step; the sample between is the cubic Hermite midpoint
+    # from the states and slopes at both ends (fourth order, like the steps)
+    hh = 2.0 * h
+    m = (n - 1) // 2
+    z = np.full(s.shape, z_hi if top else z_lo)
     j = np.zeros(s.shape)
     w = np.zeros(s.shape)
-    psis, ws, js = (np.empty((n, *s.shape)) for _ in range(3))
-    psis[0], ws[0], js[0] = psi, w, j
-    for k in range(1, n):
-        k1 = rhs(psi, j)
-        k2 = rhs(np.clip(psi + 0.5 * h * k1[0], z_lo, z_hi), j + 0.5 * h * k1[1])
-        k3 = rhs(np.clip(psi + 0.5 * h * k2[0], z_lo, z_hi), j + 0.5 * h * k2[1])
-        k4 = rhs(np.clip(psi + h * k3[0], z_lo, z_hi), j + h * k3[1])
-        psi = psi + h / 6.0 * (k1[0] + 2 * k2[0] + 2 * k3[0] + k4[0])
-        psis[k] = psi  # unclipped, so that the arrival at 0 V can be placed between steps
-        psi = np.clip(psi, z_lo, z_hi)
-        j = j + h / 6.0 * (k1[1] + 2 * k2[1] + 2 * k3[1] + k4[1])
-        w = w + h / 6.0 * (k1[2] + 2 * k2[2] + 2 * k3[2] + k4[2])
-        ws[k], js[k] = w, j
+    states = np.empty((3, m + 1, *s.shape))  # z (unclipped), j, w at each step
+    slopes = np.empty((3, m + 1, *s.shape))
+    states[:, 0] = z, j, w
+    for k in range(m + 1):
+        k1 = rhs(z, j)
+        slopes[:, k] = k1
+        if k == m:
+            break
+        k2 = rhs(np.clip(z + 0.5 * hh * k1[0], z_lo, z_hi), j + 0.5 * hh * k1[1])
+        k3 = rhs(np.clip(z + 0.5 * hh * k2[0], z_lo, z_hi), j + 0.5 * hh * k2[1])
+        k4 = rhs(np.clip(z + hh * k3[0], z_lo, z_hi), j + hh * k3[1])
+        z_raw = z + hh / 6.0 * (k1[0] + 2 * k2[0] + 2 * k3[0] + k4[0])
+        j = j + hh / 6.0 * (k1[1] + 2 * k2[1] + 2 * k3[1] + k4[1])
+        w = w + hh / 6.0 * (k1[2] + 2 * k2[2] + 2 * k3[2] + k4[2])
+        states[:, k + 1] = z_raw, j, w  # unclipped, so that 0 V is placed between steps
+        z = np.clip(z_raw, z_lo, z_hi)
+    mid = 0.5 * (states[:, :-1] + states[:, 1:]) + hh / 8.0 * (slopes[:, :-1] - slopes[:, 1:])
+    fine = np.empty((3, 2 * m + 1, *s.shape))
+    fine[:, 0::2] = states
+    fine[:, 1::2] = mid
+    psis, js, ws = fine
     raw = psis - z_lo  # ≤ 0 where the node has reached 0 V
     psis = np.clip(psis, z_lo, z_hi)
     if by_angle:
@@ -470,20 +483,17 @@ def _integrate(rho, s, q, n, *, top):
 
 def _valleys(xs, ws, *, at_start):
     """The voltage and dissipation at the last valley reached (the ring's own before it)."""
-    xv, wv = xs.copy(), ws.copy()
-    held_x, held_w = xs[..., 0].copy(), ws[..., 0].copy()
-    seen = np.full(xs.shape[:-1], at_start)
-    n = xs.shape[-1]
-    for k in range(1, n):
-        nxt = xs[..., min(k + 1, n - 1)]
-        low = (xs[..., k] <= xs[..., k - 1]) & (xs[..., k] <= nxt)
-        low &= (xs[..., k] < xs[..., k - 1]) | (xs[..., k] <= 0.0)
-        held_x = np.where(low, xs[..., k], held_x)
-        held_w = np.where(low, ws[..., k], held_w)
-        seen |= low
-        xv[..., k] = np.where(seen, np.minimum(held_x, xs[..., k]), xs[..., k])
-        wv[..., k] = np.where(seen, held_w, ws[..., k])
-    return xv, wv
+    prev = np.concatenate([xs[..., :1], xs[..., :-1]], axis=-1)
+    nxt = np.concatenate([xs[..., 1:], xs[..., -1:]], axis=-1)
+    low = (xs <= prev) & (xs <= nxt) & ((xs < prev) | (xs <= 0.0))
+    low[..., 0] = at_start
+    k = np.arange(xs.shape[-1])
+    last = np.maximum.accumulate(np.where(low, k, -1), axis=-1)
+    seen = last >= 0
+    idx = np.maximum(last, 0)
+    held_x = np.take_along_axis(xs, idx, axis=-1)
+    held_w = np.take_along_axis(ws, idx, axis=-1)
+    return (np.where(seen, np.minimum(held_x, xs), xs), np.where(seen, held_w, ws))
 
 
 def _part(rho, s, q, n_lo, *, top):
@@ -541,27 +551,100 @@ def _part(rho, s, q, n_lo, *, top):
     return part, (margin, np.where(clamped, h * (k - 1 + frac), np.inf), at(ws) / u0)
 
 
+_BOTTOM_BELOW = 0.72  # no ring from V_b reaches 0 V above s ≈ 0.64 at any ρ and Q ≤ 1000
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class RingCache:
+    """The table of one charge split, built a few settled values at a time as needed.
+
+    ``columns`` maps a settled-value node to its tabulated rings; ``blocks`` keeps the
+    last stacked ranges. Only memoisation: a value never depends on what was built before,
+    since every node is integrated on its own grid point alone.
+    """
+
+    share_self: float
+    columns: dict = field(default_factory=dict)
+    blocks: dict = field(default_factory=dict)
+
+
 @lru_cache(maxsize=8)
-def _ring_table(rho: float) -> RingTable:
-    phi = _phi_nodes()
+def _ring_table(rho: float) -> RingCache:
+    return RingCache(share_self=rho)
+
+
+def _q_grids():
     lq_lo = np.linspace(np.log(TABLE_Q_LOW[0]), np.log(TABLE_Q_LOW[1]), TABLE_Q_LOW[2])
     lq_hi = np.linspace(np.log(TABLE_Q_HIGH[0]), np.log(TABLE_Q_HIGH[1]), TABLE_Q_HIGH[2])
-    s = np.sin(phi)[:, None] ** 2 * np.ones((1, lq_lo.size + lq_hi.size))
+    return lq_lo, lq_hi
+
+
+def _build_columns(cache: RingCache, nodes) -> None:
+    """Integrate the rings of the missing settled-value nodes, in one batch."""
+    rho = cache.share_self
+    nodes = np.array(sorted(set(nodes) - set(cache.columns)), dtype=np.intp)
+    if nodes.size == 0:
+        return
+    lq_lo, lq_hi = _q_grids()
+    s1 = np.sin(_phi_nodes()[nodes]) ** 2
+    s = s1[:, None] * np.ones((1, lq_lo.size + lq_hi.size))
     q = np.exp(np.concatenate([lq_lo, lq_hi]))[None, :] * np.ones_like(s)
     top, (margin, theta_c, w_c) = _part(rho, s, q, lq_lo.size, top=True)
-    bottom, _ = _part(rho, s, q, lq_lo.size, top=False)
-    return RingTable(
-        share_self=rho,
-        phi=phi,
+    low_nodes = np.flatnonzero(s1 < _BOTTOM_BELOW)
+    bottom = _part(rho, s[low_nodes], q[low_nodes], lq_lo.size, top=False)[0] if (
+        low_nodes.size) else None
+
+    def one(part, k):
+        return RingPart(low=tuple(a[k] for a in part.low), high=tuple(a[k] for a in part.high),
+                        theta=part.theta[k], left=part.left[k])
+
+    for k, node in enumerate(nodes):
+        at = np.flatnonzero(low_nodes == k)
+        bot = one(bottom, int(at[0])) if at.size else None
+        cache.columns[int(node)] = (one(top, k), bot, margin[k], theta_c[k], w_c[k])
+
+
+def _block(cache: RingCache, i_min: int, i_max: int) -> RingTable:
+    """The table over settled-value nodes i_min..i_max, building what is missing."""
+    key = (i_min, i_max)
+    if key in cache.blocks:
+        return cache.blocks[key]
+    nodes = range(i_min, i_max + 1)
+    # the integration's cost is mostly per step, not per trajectory: build them all at once
+    _build_columns(cache, range(TABLE_S_NODES))
+    cols = [cache.columns[i] for i in nodes]
+    proto = cols[0][0]
+
+    def stack(parts):
+        filled = [p if p is not None else RingPart(
+            low=tuple(np.zeros_like(a) for a in proto.low),
+            high=tuple(np.zeros_like(a) for a in proto.high),
+            theta=np.full_like(proto.theta, np.inf), left=np.zeros_like(proto.left))
+            for p in parts]
+        return RingPart(
+            low=tuple(np.stack([p.low[k] for p in filled]) for k in range(4)),
+            high=tuple(np.stack([p.high[k] for p in filled]) for k in range(4)),
+            theta=np.stack([p.theta for p in filled]),
+            left=np.stack([p.left for p in filled]),
+        )
+
+    lq_lo, lq_hi = _q_grids()
+    tab = RingTable(
+        share_self=cache.share_self,
+        phi=_phi_nodes()[i_min:i_max + 1],
         log_q_low=lq_lo,
         log_q_high=lq_hi,
         step=2.0 * np.pi / TABLE_STEPS_PER_PERIOD,
-        top=top,
-        bottom=bottom,
-        margin=margin,
-        theta_c=theta_c,
-        w_c=w_c,
+        top=stack([c[0] for c in cols]),
+        bottom=stack([c[1] for c in cols]),
+        margin=np.stack([c[2] for c in cols]),
+        theta_c=np.stack([c[3] for c in cols]),
+        w_c=np.stack([c[4] for c in cols]),
     )
+    if len(cache.blocks) > 8:
+        cache.blocks.clear()
+    cache.blocks[key] = tab
+    return tab
 
 
 def _weights(value, start, step, count):
@@ -685,7 +768,7 @@ def ring_state(
     a_opp: float,
     q: ArrayLike,
     valley: bool = False,
-    table: RingTable | None = None,
+    table: RingCache | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Switch voltage of the ring and the energy it has dissipated, after a time.
 
@@ -708,8 +791,9 @@ def ring_state(
     valley : bool, optional
         Give the voltage and the dissipated energy at the last valley reached by ``t``
         (the ring's own values before the first valley) instead of at ``t``. [-]
-    table : RingTable, optional
-        A table from :func:`ring_table` for this charge split; built if omitted. [-]
+    table : RingCache, optional
+        The table from :func:`ring_table` for this charge split; taken from it if
+        omitted. [-]
 
     Returns
     -------
@@ -753,8 +837,8 @@ def ring_state(
     if a_tot <= 0.0:
         return np.clip(v_set, 0.0, v_block).copy(), np.zeros(shape)
     t, v_set, v_block, q, l = (np.ravel(a) for a in (t, v_set, v_block, q, l))
-    tab = table if table is not None else ring_table(float(a_self) / a_tot)
-    rho = tab.share_self
+    cache = table if table is not None else ring_table(float(a_self) / a_tot)
+    rho = cache.share_self
     with np.errstate(invalid="ignore", divide="ignore"):
         s_raw = v_set / v_block
         ok = np.isfinite(s_raw) & (v_block > 0.0) & np.isfinite(t) & np.isfinite(q) & (q > 0)
@@ -764,7 +848,14 @@ def ring_state(
         theta = np.where(ok, np.maximum(t, 0.0), 0.0) / (t0 * np.sqrt(c))
         qq = np.clip(np.where(ok, q, 1.0), TABLE_Q_LOW[0], TABLE_Q_HIGH[1])
     phi = np.arcsin(np.sqrt(s))
-    i_s, f_s = _weights(phi, tab.phi[0], tab.phi[1] - tab.phi[0], tab.phi.size)
+    nodes = _phi_nodes()
+    i_s, f_s = _weights(phi, nodes[0], nodes[1] - nodes[0], nodes.size)
+    if i_s.size == 0:
+        return np.full(shape, np.nan), np.full(shape, np.nan)
+    i_max = int(i_s.max()) + 1
+    i_min = int(i_s.min())
+    tab = _block(cache, i_min, i_max)
+    i_s = i_s - i_min
     lq = np.log(qq)
     u_top = ring_energy(1.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
     u_bot = ring_energy(0.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
