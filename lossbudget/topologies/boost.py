@@ -78,8 +78,8 @@ def steady_state(
     DCM: I_pk·L·f = (V_in − I_pk(R_L + R_sw)/2)·D
     = (V_C + s·V_f0 − V_in + I_pk(R_L + s·R_rect)/2)·D2 with the rectifier's share
     s = I_out/Q of the falling slope's charge (as in CCM), and ½·I_pk·D2 = Q, a quadratic in
-    I_pk. At D + D2 = 1 it is the CCM solution at zero valley current, so the modes meet. Both reduce to M = 1/(1 − D) and the DCM ratio
-    (1 + √(1 + 4D²/K))/2 without losses.
+    I_pk. At D + D2 = 1 it is the CCM solution at zero valley current, so the modes meet.
+    Both reduce to M = 1/(1 − D) and the DCM ratio (1 + √(1 + 4D²/K))/2 without losses.
 
     References
     ----------
