@@ -89,7 +89,8 @@ def test_dcm_turn_on_follows_the_ring():
     v, v_set = 48.0, 24.0
     a_sw, a_d = 60e-9 / sqrt(50.0), 25e-9 / sqrt(48.0)
     hard = a_sw * v**1.5 / 3 + a_d * v**1.5 * 2 / 3
-    # from the settled voltage: E_self(V_set) + V·[Q_d(V) − Q_d(V − V_set)] − [E_d(V) − E_d(V − V_set)]
+    # from the settled voltage (partial swing, SPEC §2.3):
+    # E_self(V_set) + V·[Q_d(V) − Q_d(V − V_set)] − [E_d(V) − E_d(V − V_set)]
     q = a_d * (sqrt(v) - sqrt(v - v_set))
     e_d = a_d * (v**1.5 - (v - v_set) ** 1.5) / 3
     settled = a_sw * v_set**1.5 / 3 + v * q - e_d
