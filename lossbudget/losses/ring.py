@@ -356,7 +356,7 @@ def _c_norm(s, rho):
 
 
 def ring_table(share_self: float) -> RingCache:
-    """The normalised nonlinear ring of one charge split, integrated over the table grid.
+    """The normalised nonlinear ring of one charge split, tabulated.
 
     Parameters
     ----------
