@@ -23,6 +23,7 @@ from lossbudget.losses import diode as dio
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
 from lossbudget.losses import ring as rng
+from lossbudget.losses import ring_trajectory as rtr
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
 from lossbudget.waveforms import integral_extremes_pwl
@@ -401,7 +402,7 @@ def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
 
     v_b, v_set, q_s, v_e = at(st.v_switch_block), at(st.v_switch_settled), at(q), at(v)
     t_idle = np.maximum(1.0 - at(st.duty) - at(st.d2), 0.0) / at(fsw)
-    table = rng.ring_table(a_s / (a_s + a_o))
+    table = rtr.ring_table(a_s / (a_s + a_o))
     if mode == "averaged":
         # the mean over the last small-signal ring period of the idle interval
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -414,7 +415,7 @@ def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
         v_set, v_b, q_s, v_e = (x[:, None] for x in (v_set, v_b, q_s, v_e))
     else:
         t = t_idle
-    v_on, dec = rng.ring_state(
+    v_on, dec = rtr.ring_state(
         t, v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o, q=q_s,
         valley=mode == "valley", table=table,
     )

@@ -17,6 +17,7 @@ from scipy.integrate import solve_ivp
 
 from lossbudget.losses import mosfet as m
 from lossbudget.losses import ring as rg
+from lossbudget.losses import ring_trajectory as rt
 
 L = 22e-6
 V_B = 48.0
@@ -117,7 +118,7 @@ def test_ring_against_solve_ivp_on_the_nonlinear_capacitance(s, q, periods):
     w0 = _omega0(v_set)
     r = float(rg.ring_resistance_from_q(q, omega0=w0, l=L))
     t = periods * 2 * np.pi / w0
-    v, e = rg.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q)
+    v, e = rt.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q)
     v_ref, e_ref, _ = _reference(t, v_set=v_set, v_block=V_B, l=L, a_s=A_S, a_o=A_O, r=r)
     amp = V_B - v_set
     assert abs(v - v_ref) <= 0.01 * amp
@@ -138,7 +139,7 @@ def test_ring_in_its_linear_limit_is_the_rlc_step_response():
     sig = w0 / (2 * q)
     wd = np.sqrt(w0**2 - sig**2)
     t = np.linspace(0.0, 1.5, 13) * 2 * np.pi / w0
-    v, _ = rg.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=0.0, q=q)
+    v, _ = rt.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=0.0, q=q)
     a = V_B - v_set
     v_rlc = v_set + a * np.exp(-sig * t) * (np.cos(wd * t) + sig / wd * np.sin(wd * t))
     assert np.max(np.abs(v - v_rlc)) <= 0.03 * a
@@ -149,7 +150,7 @@ def test_zero_idle_time_is_the_hard_turn_on_exactly():
     # at the blocking voltage (here with a diode's 0.5 V above the edge voltage), the
     # partial-swing rule clips the residual at the edge voltage.
     v_edge = 48.0
-    v, e = rg.ring_state(0.0, v_set=24.0, v_block=v_edge + 0.5, l=L, a_self=A_S, a_opp=A_O,
+    v, e = rt.ring_state(0.0, v_set=24.0, v_block=v_edge + 0.5, l=L, a_self=A_S, a_opp=A_O,
                          q=[5.0, 50.0])
     assert np.all(v == v_edge + 0.5)
     assert np.all(e == 0.0)
@@ -179,9 +180,9 @@ def test_ring_energy_is_decay_plus_what_is_left():
                                          r=r)
         left = rg.ring_energy(v_ref, v_set=v_set, v_block=V_B, a_self=A_S, a_opp=A_O)
         assert_allclose(w_ref + left + 0.5 * L * i_ref**2, e0, rtol=1e-6)
-        _, e = rg.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q)
+        _, e = rt.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q)
         assert abs(e - w_ref) <= 0.02 * e0
-    v_end, e_end = rg.ring_state(24 * 2 * np.pi / w0, v_set=v_set, v_block=V_B, l=L,
+    v_end, e_end = rt.ring_state(24 * 2 * np.pi / w0, v_set=v_set, v_block=V_B, l=L,
                                  a_self=A_S, a_opp=A_O, q=q)
     assert_allclose(v_end, v_set, atol=1e-3 * (V_B - v_set))
     assert_allclose(e_end, e0, rtol=5e-3)
@@ -210,14 +211,14 @@ def test_valley_is_never_above_the_ring_and_both_settle_alike():
     t = np.linspace(0.0, 8.0, 161)[:, None] * 2 * np.pi / _omega0(24.0)
     v_set = np.array([10.0, 24.0, 40.0])[None, :]
     for q in (3.5, 25.0, 400.0):
-        v, e = rg.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q)
-        vv, ev = rg.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q,
+        v, e = rt.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q)
+        vv, ev = rt.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q,
                                valley=True)
         assert np.all(vv <= v + 1e-9)
         assert np.all(ev <= e + 1e-15)
         assert np.all(vv[0] == V_B)
-    v, _ = rg.ring_state(1e-3, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=5.0)
-    vv, _ = rg.ring_state(1e-3, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=5.0,
+    v, _ = rt.ring_state(1e-3, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=5.0)
+    vv, _ = rt.ring_state(1e-3, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=5.0,
                           valley=True)
     assert_allclose(v, v_set, atol=1e-6)
     assert_allclose(vv, v_set, atol=1e-6)
@@ -248,13 +249,13 @@ def test_grid_equals_point_by_point():
     v_set = np.array([[10.0, 24.0, 40.0], [30.0, 5.0, 44.0]])
     q = np.array([[2.0, 50.0, 300.0], [0.5, 20.0, 8.0]])
     for valley in (False, True):
-        v, e = rg.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q,
+        v, e = rt.ring_state(t, v_set=v_set, v_block=V_B, l=L, a_self=A_S, a_opp=A_O, q=q,
                              valley=valley)
         assert v.shape == t.shape
         for idx in np.ndindex(*t.shape):
-            vp, ep = rg.ring_state(t[idx], v_set=v_set[idx], v_block=V_B, l=L, a_self=A_S,
+            vp, ep = rt.ring_state(t[idx], v_set=v_set[idx], v_block=V_B, l=L, a_self=A_S,
                                    a_opp=A_O, q=q[idx], valley=valley)
             assert_allclose([v[idx], e[idx]], [vp, ep], rtol=1e-12, atol=0.0)
     # no node charge: the node sits at the settled voltage
-    v, e = rg.ring_state(1e-6, v_set=24.0, v_block=V_B, l=L, a_self=0.0, a_opp=0.0, q=10.0)
+    v, e = rt.ring_state(1e-6, v_set=24.0, v_block=V_B, l=L, a_self=0.0, a_opp=0.0, q=10.0)
     assert v == 24.0 and e == 0.0
