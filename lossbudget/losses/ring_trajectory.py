@@ -188,49 +188,57 @@ def _integrate(rho, s, q, n, *, top):
 
     z_lo, z_hi = (0.0, end) if by_angle else (y_lo, y_hi)
     # RK4 at two table samples a step; the sample between is the cubic Hermite midpoint
-    # from the states and slopes at both ends (fourth order, like the steps)
+    # from the states and slopes at both ends (fourth order, like the steps), written in
+    # place: fresh memory is dear, its page faults cost more than the arithmetic here.
     hh = 2.0 * h
     m = (n - 1) // 2
     z = np.full(s.shape, z_hi if top else z_lo)
     j = np.zeros(s.shape)
     w = np.zeros(s.shape)
-    states = np.empty((3, m + 1, *s.shape))  # z (unclipped), j, w at each step
-    slopes = np.empty((3, m + 1, *s.shape))
-    states[:, 0] = z, j, w
+    fine = np.empty((3, 2 * m + 1, *s.shape))
+    fine[:, 0] = z, j, w
+    prev_state = prev_slope = None
+    z_raw = z
     for k in range(m + 1):
         k1 = rhs(z, j)
-        slopes[:, k] = k1
+        if prev_state is not None:
+            for c in range(3):
+                fine[c, 2 * k - 1] = 0.5 * (prev_state[c] + (z_raw, j, w)[c]) + hh / 8.0 * (
+                    prev_slope[c] - k1[c])
         if k == m:
             break
+        prev_state, prev_slope = (z, j, w), k1
         k2 = rhs(np.clip(z + 0.5 * hh * k1[0], z_lo, z_hi), j + 0.5 * hh * k1[1])
         k3 = rhs(np.clip(z + 0.5 * hh * k2[0], z_lo, z_hi), j + 0.5 * hh * k2[1])
         k4 = rhs(np.clip(z + hh * k3[0], z_lo, z_hi), j + hh * k3[1])
         z_raw = z + hh / 6.0 * (k1[0] + 2 * k2[0] + 2 * k3[0] + k4[0])
         j = j + hh / 6.0 * (k1[1] + 2 * k2[1] + 2 * k3[1] + k4[1])
         w = w + hh / 6.0 * (k1[2] + 2 * k2[2] + 2 * k3[2] + k4[2])
-        states[:, k + 1] = z_raw, j, w  # unclipped, so that 0 V is placed between steps
+        fine[:, 2 * k + 2] = z_raw, j, w  # unclipped, so that 0 V is placed between steps
         z = np.clip(z_raw, z_lo, z_hi)
-    mid = 0.5 * (states[:, :-1] + states[:, 1:]) + hh / 8.0 * (slopes[:, :-1] - slopes[:, 1:])
-    fine = np.empty((3, 2 * m + 1, *s.shape))
-    fine[:, 0::2] = states
-    fine[:, 1::2] = mid
-    psis, js, ws = fine
-    raw = psis - z_lo  # ≤ 0 where the node has reached 0 V
-    psis = np.clip(psis, z_lo, z_hi)
+    raw, js, ws = fine  # raw: the unclipped state, at or below z_lo where 0 V is reached
+    psis = np.clip(raw, z_lo, z_hi)
+    if z_lo != 0.0:
+        raw = raw - z_lo
     if by_angle:
-        sn = np.sin(psis)
-        xs = sn * sn
-        ys = rho * sn - (1.0 - rho) * np.cos(psis)
+        ys = np.cos(psis)
+        ys *= -(1.0 - rho)
+        np.sin(psis, out=psis)
+        ys += rho * psis
+        xs = np.square(psis, out=psis)
     else:
         xs = _x_of_y(psis, rho)
         ys = psis
-    angle = np.arctan2(-js, (ys - y_s) / sc)
+    ys -= y_s
+    ys /= sc
+    angle = np.arctan2(-js, ys, out=ys)
     step = np.diff(angle, axis=0)
     step -= 2.0 * np.pi * np.round(step / (2.0 * np.pi))
     # the phase from the start, whichever quadrant the start lies in
-    phase = np.maximum.accumulate(
-        np.concatenate([np.zeros_like(angle[:1]), np.cumsum(step, axis=0)]), axis=0
-    )
+    phase = angle
+    phase[0] = 0.0
+    np.cumsum(step, axis=0, out=phase[1:])
+    np.maximum.accumulate(phase, axis=0, out=phase)
     return tuple(np.moveaxis(a, 0, -1) for a in (xs, ws, js, phase, raw))
 
 
@@ -674,6 +682,9 @@ def ring_state(
         w = np.where(in_clamp & ~after, w_c * u_top + w_clamp, w)
         dev = np.where(in_clamp & ~after, -s, dev)
     x = np.clip(s + dev, 0.0, 1.0)
-    v = np.where(ok, x * v_block, np.nan)
-    e = np.where(ok, w * a_tot * np.where(ok, v_block, np.nan) ** 1.5, np.nan)
+    # at zero time the ring has not left the blocking voltage: exactly the hard edge
+    start = theta <= 0.0
+    v = np.where(ok, np.where(start, v_block, x * v_block), np.nan)
+    e = np.where(ok, np.where(start, 0.0, w) * a_tot * np.where(ok, v_block, np.nan) ** 1.5,
+                 np.nan)
     return v.reshape(shape), e.reshape(shape)
