@@ -120,8 +120,8 @@ def ring_table(share_self: float) -> RingCache:
     Returns
     -------
     RingCache
-        The table, memoised per charge split; its settled-value nodes are integrated as the
-        operating points first need them, a batch at a time (see :class:`RingTable`). [-]
+        The table, memoised per charge split and integrated when an operating point first
+        needs it (see :class:`RingTable`). [-]
 
     Notes
     -----
@@ -257,12 +257,15 @@ def _valleys(xs, ws, *, at_start):
     return (np.where(seen, np.minimum(held_x, xs), xs), np.where(seen, held_w, ws))
 
 
-def _part(rho, s, q, n_lo, *, top):
-    """Integrate and tabulate one ring from rest (see :class:`RingPart`)."""
+def _part(rho, s, q, n_lo, *, top, valleys):
+    """Integrate and tabulate one ring from rest (see :class:`RingPart`).
+
+    Without ``valleys`` the valley slots are None (only the "valley" turn-on needs them).
+    """
     n_t = TABLE_PERIODS * TABLE_STEPS_PER_PERIOD + 1
     n_long = _INTEGRATED_PERIODS * TABLE_STEPS_PER_PERIOD + 1
     xs, ws, js, phase, raw = _integrate(rho, s, q, n_long, top=top)
-    xv, wv = _valleys(xs, ws, at_start=not top)
+    xv, wv = _valleys(xs, ws, at_start=not top) if valleys else (None, None)
     # the node charge, relative to its start: it leaves the start ∝ t² (the voltage of a
     # device at 0 V only ∝ t⁴), which a linear blend in time keeps smooth
     y_s = _y_of_x(s, rho)
@@ -270,7 +273,10 @@ def _part(rho, s, q, n_lo, *, top):
     u0 = ring_energy(1.0 if top else 0.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
     u0 = np.where(u0 > 0.0, u0, 1.0)
     y3, u3 = y_s[..., None], u0[..., None]
-    rel = ((_y_of_x(xs, rho) - y3) / dev, ws / u3, (_y_of_x(xv, rho) - y3) / dev, wv / u3)
+    rel = ((_y_of_x(xs, rho) - y3) / dev, ws / u3)
+    if valleys:
+        rel = (*rel, (_y_of_x(xv, rho) - y3) / dev, wv / u3)
+    del xv, wv
     low = tuple(a[:, :n_lo, :n_t] for a in rel)
     h = 2.0 * np.pi / TABLE_STEPS_PER_PERIOD
     theta_t = h * np.arange(n_long)
@@ -317,15 +323,13 @@ _BOTTOM_BELOW = 0.72  # no ring from V_b reaches 0 V above s ≈ 0.64 at any ρ 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class RingCache:
-    """The table of one charge split, built a few settled values at a time as needed.
+    """The table of one charge split, integrated when an operating point first needs it.
 
-    ``columns`` maps a settled-value node to its tabulated rings; ``blocks`` keeps the
-    last stacked ranges. Only memoisation: a value never depends on what was built before,
-    since every node is integrated on its own grid point alone.
+    ``blocks`` holds the table without the valleys and, once the "valley" turn-on asks for
+    it, with them. Only memoisation: a value never depends on what was built before.
     """
 
     share_self: float
-    columns: dict = field(default_factory=dict)
     blocks: dict = field(default_factory=dict)
 
 
@@ -340,71 +344,45 @@ def _q_grids():
     return lq_lo, lq_hi
 
 
-def _build_columns(cache: RingCache, nodes) -> None:
-    """Integrate the rings of the missing settled-value nodes, in one batch."""
+def _block(cache: RingCache, *, valleys: bool) -> RingTable:
+    """The whole table of the charge split, integrated on first use (with or without the
+    valleys; the integration's cost is mostly per step, not per trajectory)."""
+    if valleys in cache.blocks:
+        return cache.blocks[valleys]
     rho = cache.share_self
-    nodes = np.array(sorted(set(nodes) - set(cache.columns)), dtype=np.intp)
-    if nodes.size == 0:
-        return
     lq_lo, lq_hi = _q_grids()
-    s1 = np.sin(_phi_nodes()[nodes]) ** 2
+    s1 = np.sin(_phi_nodes()) ** 2
     s = s1[:, None] * np.ones((1, lq_lo.size + lq_hi.size))
     q = np.exp(np.concatenate([lq_lo, lq_hi]))[None, :] * np.ones_like(s)
-    top, (margin, theta_c, w_c) = _part(rho, s, q, lq_lo.size, top=True)
+    top, (margin, theta_c, w_c) = _part(rho, s, q, lq_lo.size, top=True, valleys=valleys)
+    # the ring from 0 V at rest follows a clamp, which only low settled values reach
     low_nodes = np.flatnonzero(s1 < _BOTTOM_BELOW)
-    bottom = _part(rho, s[low_nodes], q[low_nodes], lq_lo.size, top=False)[0] if (
-        low_nodes.size) else None
+    part, _ = _part(rho, s[low_nodes], q[low_nodes], lq_lo.size, top=False, valleys=valleys)
 
-    def one(part, k):
-        return RingPart(low=tuple(a[k] for a in part.low), high=tuple(a[k] for a in part.high),
-                        theta=part.theta[k], left=part.left[k])
+    def pad(a, fill):
+        out = np.full((s1.size, *a.shape[1:]), fill)
+        out[low_nodes] = a
+        return out
 
-    for k, node in enumerate(nodes):
-        at = np.flatnonzero(low_nodes == k)
-        bot = one(bottom, int(at[0])) if at.size else None
-        cache.columns[int(node)] = (one(top, k), bot, margin[k], theta_c[k], w_c[k])
-
-
-def _block(cache: RingCache, i_min: int, i_max: int) -> RingTable:
-    """The table over settled-value nodes i_min..i_max, building what is missing."""
-    key = (i_min, i_max)
-    if key in cache.blocks:
-        return cache.blocks[key]
-    nodes = range(i_min, i_max + 1)
-    # the integration's cost is mostly per step, not per trajectory: build them all at once
-    _build_columns(cache, range(TABLE_S_NODES))
-    cols = [cache.columns[i] for i in nodes]
-    proto = cols[0][0]
-
-    def stack(parts):
-        filled = [p if p is not None else RingPart(
-            low=tuple(np.zeros_like(a) for a in proto.low),
-            high=tuple(np.zeros_like(a) for a in proto.high),
-            theta=np.full_like(proto.theta, np.inf), left=np.zeros_like(proto.left))
-            for p in parts]
-        return RingPart(
-            low=tuple(np.stack([p.low[k] for p in filled]) for k in range(4)),
-            high=tuple(np.stack([p.high[k] for p in filled]) for k in range(4)),
-            theta=np.stack([p.theta for p in filled]),
-            left=np.stack([p.left for p in filled]),
-        )
-
-    lq_lo, lq_hi = _q_grids()
+    bottom = RingPart(
+        low=tuple(pad(a, 0.0) for a in part.low),
+        high=tuple(pad(a, 0.0) for a in part.high),
+        theta=pad(part.theta, np.inf),
+        left=pad(part.left, 0.0),
+    )
     tab = RingTable(
-        share_self=cache.share_self,
-        phi=_phi_nodes()[i_min:i_max + 1],
+        share_self=rho,
+        phi=_phi_nodes(),
         log_q_low=lq_lo,
         log_q_high=lq_hi,
         step=2.0 * np.pi / TABLE_STEPS_PER_PERIOD,
-        top=stack([c[0] for c in cols]),
-        bottom=stack([c[1] for c in cols]),
-        margin=np.stack([c[2] for c in cols]),
-        theta_c=np.stack([c[3] for c in cols]),
-        w_c=np.stack([c[4] for c in cols]),
+        top=top,
+        bottom=bottom,
+        margin=margin,
+        theta_c=theta_c,
+        w_c=w_c,
     )
-    if len(cache.blocks) > 8:
-        cache.blocks.clear()
-    cache.blocks[key] = tab
+    cache.blocks[valleys] = tab
     return tab
 
 
@@ -613,10 +591,7 @@ def ring_state(
     i_s, f_s = _weights(phi, nodes[0], nodes[1] - nodes[0], nodes.size)
     if i_s.size == 0:
         return np.full(shape, np.nan), np.full(shape, np.nan)
-    i_max = int(i_s.max()) + 1
-    i_min = int(i_s.min())
-    tab = _block(cache, i_min, i_max)
-    i_s = i_s - i_min
+    tab = _block(cache, valleys=valley)
     lq = np.log(qq)
     u_top = ring_energy(1.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
     u_bot = ring_energy(0.0, v_set=s, v_block=1.0, a_self=rho, a_opp=1.0 - rho)
