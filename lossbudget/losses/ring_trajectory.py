@@ -161,7 +161,10 @@ def _phi_nodes():
 
 
 def _integrate(rho, s, q, n, *, top):
-    """RK4 of the normalised ring from rest over n steps: x, w, j, phase (s × q × n)."""
+    """RK4 of the normalised ring from rest over n steps: x, w, j, phase (s × q × n).
+
+    ``top`` (broadcast over s × q): start from the blocking voltage, else from 0 V.
+    """
     sc = np.sqrt(_c_norm(s, rho))
     r = 1.0 / (q * sc)
     y_s = rho * np.sqrt(s) - (1.0 - rho) * np.sqrt(1.0 - s)
@@ -192,7 +195,7 @@ def _integrate(rho, s, q, n, *, top):
     # place: fresh memory is dear, its page faults cost more than the arithmetic here.
     hh = 2.0 * h
     m = (n - 1) // 2
-    z = np.full(s.shape, z_hi if top else z_lo)
+    z = np.where(top, z_hi, z_lo) * np.ones(s.shape)
     j = np.zeros(s.shape)
     w = np.zeros(s.shape)
     fine = np.empty((3, 2 * m + 1, *s.shape))
@@ -257,14 +260,14 @@ def _valleys(xs, ws, *, at_start):
     return (np.where(seen, np.minimum(held_x, xs), xs), np.where(seen, held_w, ws))
 
 
-def _part(rho, s, q, n_lo, *, top, valleys):
-    """Integrate and tabulate one ring from rest (see :class:`RingPart`).
+def _part(rho, s, q, n_lo, integrated, *, top, valleys):
+    """Tabulate one ring from rest (see :class:`RingPart`) from its integration.
 
     Without ``valleys`` the valley slots are None (only the "valley" turn-on needs them).
     """
     n_t = TABLE_PERIODS * TABLE_STEPS_PER_PERIOD + 1
     n_long = _INTEGRATED_PERIODS * TABLE_STEPS_PER_PERIOD + 1
-    xs, ws, js, phase, raw = _integrate(rho, s, q, n_long, top=top)
+    xs, ws, js, phase, raw = integrated
     xv, wv = _valleys(xs, ws, at_start=not top) if valleys else (None, None)
     # the node charge, relative to its start: it leaves the start ∝ t² (the voltage of a
     # device at 0 V only ∝ t⁴), which a linear blend in time keeps smooth
@@ -354,10 +357,20 @@ def _block(cache: RingCache, *, valleys: bool) -> RingTable:
     s1 = np.sin(_phi_nodes()) ** 2
     s = s1[:, None] * np.ones((1, lq_lo.size + lq_hi.size))
     q = np.exp(np.concatenate([lq_lo, lq_hi]))[None, :] * np.ones_like(s)
-    top, (margin, theta_c, w_c) = _part(rho, s, q, lq_lo.size, top=True, valleys=valleys)
-    # the ring from 0 V at rest follows a clamp, which only low settled values reach
+    # the ring from 0 V at rest follows a clamp, which only low settled values reach; both
+    # rings in one integration (its cost is per step more than per trajectory)
     low_nodes = np.flatnonzero(s1 < _BOTTOM_BELOW)
-    part, _ = _part(rho, s[low_nodes], q[low_nodes], lq_lo.size, top=False, valleys=valleys)
+    n_top = s1.size
+    both_s = np.concatenate([s, s[low_nodes]])
+    both_q = np.concatenate([q, q[low_nodes]])
+    start_top = (np.arange(both_s.shape[0]) < n_top)[:, None]
+    n_long = _INTEGRATED_PERIODS * TABLE_STEPS_PER_PERIOD + 1
+    out = _integrate(rho, both_s, both_q, n_long, top=start_top)
+    top, (margin, theta_c, w_c) = _part(rho, s, q, lq_lo.size,
+                                        tuple(a[:n_top] for a in out), top=True,
+                                        valleys=valleys)
+    part, _ = _part(rho, s[low_nodes], q[low_nodes], lq_lo.size,
+                    tuple(a[n_top:] for a in out), top=False, valleys=valleys)
 
     def pad(a, fill):
         out = np.full((s1.size, *a.shape[1:]), fill)
