@@ -111,6 +111,8 @@ def steady_state(
         # the falling slope (the rest of the charge is the edge charge of the gap), as in CCM,
         # so that the two modes meet exactly where the valley current reaches zero
         lf = l * fsw
+        # (the gap charge, edge power drawn through the inductor, does not pass the diode:
+        # its forward drop and slope resistance act on the output's share only)
         big_a = vc + share * vf0 - vin
         big_b = 0.5 * (r_l + share * r_rect)
         ipk_d = (
