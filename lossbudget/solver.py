@@ -19,12 +19,12 @@ import numpy as np
 from lossbudget.budget import AXES, Budget, MechanismStatus
 from lossbudget.design import Corner, Design, Diode, Mosfet
 from lossbudget.errors import DesignError
+from lossbudget.losses import capacitors as capm
 from lossbudget.losses import diode as dio
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
-from lossbudget.waveforms import integral_extremes_pwl
 
 N_HARMONICS = 24
 CHUNK = 25_000
@@ -32,7 +32,6 @@ INNER_STEPS = 4
 INNER_STEPS_THERMAL = 2
 THERMAL_TOL = 0.01
 CEILING = 300.0
-ESR_FLOOR = 1e-6
 EDGE_MECHANISMS = ("turn_on", "turn_off", "coss", "dead_time", "reverse_recovery")
 
 
@@ -453,7 +452,8 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
 def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps, full=True):
     """ESR losses of the banks at one position sharing a ripple current by impedance.
 
-    With ``full=False`` only the losses: no RMS currents, no voltage ripple.
+    The models are in :mod:`lossbudget.losses.capacitors`. With ``full=False`` only the
+    losses: no RMS currents, no voltage ripple.
     """
     idx = [k for k, c in enumerate(ctx.caps) if c.position == position]
     if not idx:
@@ -466,46 +466,44 @@ def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps, full=Tru
         t_pts, r_pts = ctx.cap_esr[k]
         esr.append(
             np.maximum(
-                dio.linear_in_temperature(temps[c.name], t_points=t_pts, values=r_pts), ESR_FLOOR
+                dio.linear_in_temperature(temps[c.name], t_points=t_pts, values=r_pts),
+                capm.ESR_FLOOR,
             )
             / c.count
         )
         c_val = ctx.cap_c[k]
         if c.c_bias:
-            ratio = c_val / c.c.typ
-            c_at = np.interp(v_dc, [p[0] for p in c.c_bias], [p[1] for p in c.c_bias]) * ratio
+            c_at = capm.capacitance_at_bias(
+                v_dc,
+                c_points_v=[p[0] for p in c.c_bias],
+                c_points=[p[1] for p in c.c_bias],
+                scale=c_val / c.c.typ,
+            )
         else:
             c_at = np.full(np.shape(v_dc), c_val)
         cap.append(c_at * c.count)
+    shape = np.shape(ms_ac)
+    esr_b = np.stack([np.broadcast_to(e, shape) for e in esr], axis=-1)
+    cap_b = np.stack([np.broadcast_to(x, shape) for x in cap], axis=-1)
+    harm = wave.harmonics_rms(N_HARMONICS) if len(idx) > 1 else np.zeros((*shape, 0))
+    ms = capm.bank_mean_squares(harm, ms_ac, esr=esr_b, capacitance=cap_b, fsw=fsw)
     losses = {}
     rms = {}
-    if len(idx) == 1:
-        k = idx[0]
-        losses[ctx.caps[k].name, "esr"] = esr[0] * ms_ac
-        rms[ctx.caps[k].name] = np.sqrt(ms_ac)
-    else:
-        harm = wave.harmonics_rms(N_HARMONICS)
-        n = np.arange(1, N_HARMONICS + 1)
-        w = 2 * np.pi * n * np.asarray(fsw)[..., None]
-        y = [
-            1.0 / (e[..., None] + 1.0 / (1j * w * c[..., None]))
-            for e, c in zip(esr, cap, strict=True)
-        ]
-        y_sum = sum(y)
-        tail = np.maximum(ms_ac - np.sum(harm * harm, axis=-1), 0.0)
-        for j, k in enumerate(idx):
-            share = np.abs(y[j] / y_sum) ** 2
-            ms_k = np.sum(harm * harm * share, axis=-1) + tail * share[..., -1]
-            losses[ctx.caps[k].name, "esr"] = esr[j] * ms_k
-            rms[ctx.caps[k].name] = np.sqrt(ms_k)
+    for j, k in enumerate(idx):
+        losses[ctx.caps[k].name, "esr"] = capm.esr_loss(esr_b[..., j], ms[..., j])
+        rms[ctx.caps[k].name] = np.sqrt(ms[..., j])
     if not full:
         return losses, {}, None
-    c_total = sum(cap)
-    esr_par = 1.0 / sum(1.0 / e for e in esr)
-    ripple = integral_extremes_pwl(
-        wave.t, wave.start - wave.mean()[..., None], wave.end - wave.mean()[..., None]
-    ) / (fsw * c_total)
-    ripple = ripple + (wave.peak() - wave.trough()) * esr_par
+    mean = wave.mean()[..., None]
+    ripple = capm.ripple_voltage_banks(
+        wave.t,
+        wave.start - mean,
+        wave.end - mean,
+        fsw=fsw,
+        esr=esr_b,
+        capacitance=cap_b,
+        n_harmonics=N_HARMONICS,
+    )
     return losses, rms, ripple
 
 
