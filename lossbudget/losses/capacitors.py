@@ -20,7 +20,7 @@ N_SAMPLES = 64  # uniform time samples of the multi-bank correction per period
 
 
 def capacitance_at_bias(v_dc, *, c_points_v, c_points, scale=1.0):
-    """Capacitance of a ceramic part at its DC bias, through the datasheet points.
+    """Capacitance of a ceramic part at its DC bias.
 
     Parameters
     ----------
@@ -52,7 +52,7 @@ def capacitance_at_bias(v_dc, *, c_points_v, c_points, scale=1.0):
 
 
 def bank_mean_squares(harmonics, ms_ac, *, esr, capacitance, fsw):
-    """Mean-square ripple current of each parallel bank, shared by impedance per harmonic.
+    """Mean-square ripple current of each bank, shared by impedance.
 
     Parameters
     ----------
@@ -135,7 +135,7 @@ def _segments(t, start, end):
 
 
 def ripple_voltage_pwl(t, start, end, *, fsw, esr, capacitance):
-    """Exact peak-to-peak voltage of one bank driven by a piecewise-linear ripple current.
+    """Exact peak-to-peak voltage of one bank under a PWL ripple current.
 
     Parameters
     ----------
@@ -175,7 +175,15 @@ def ripple_voltage_pwl(t, start, end, *, fsw, esr, capacitance):
     r = np.asarray(esr, dtype=float)
     k_q = 1.0 / (np.asarray(fsw, dtype=float) * np.asarray(capacitance, dtype=float))
     _, v = _candidates(t, a, b, d, r=r, k_q=k_q)
-    return np.nanmax(v, axis=-1) - np.nanmin(v, axis=-1)
+    return _peak_to_peak(v)
+
+
+def _peak_to_peak(v):
+    """max − min over the last axis ignoring NaN candidates; NaN where none is finite."""
+    ok = np.isfinite(v)
+    hi = np.max(np.where(ok, v, -np.inf), axis=-1)
+    lo = np.min(np.where(ok, v, np.inf), axis=-1)
+    return np.where(np.any(ok, axis=-1), hi - lo, np.nan)
 
 
 def _candidates(t, a, b, d, *, r, k_q):
@@ -210,7 +218,7 @@ def _candidates(t, a, b, d, *, r, k_q):
 
 
 def fourier_coefficients_pwl(t, start, end, *, n_max):
-    """Complex Fourier coefficients c_1..c_N of a piecewise-linear periodic waveform.
+    """Complex Fourier coefficients c_1..c_N of a periodic PWL waveform.
 
     Parameters
     ----------
@@ -279,7 +287,7 @@ def _running_integral_at(tau, t, a, b, d):
 
 
 def ripple_voltage_banks(t, start, end, *, fsw, esr, capacitance, n_harmonics=24):
-    """Peak-to-peak voltage of parallel banks driven by a piecewise-linear ripple current.
+    """Peak-to-peak voltage of parallel banks under a PWL ripple current.
 
     Parameters
     ----------
@@ -349,5 +357,4 @@ def ripple_voltage_banks(t, start, end, *, fsw, esr, capacitance, n_harmonics=24
     v_corr = np.zeros(tau.shape)
     for j in range(n_harmonics):
         v_corr += 2.0 * np.real(amp[..., j, None] * np.exp(2j * np.pi * (j + 1) * tau))
-    v = v_eq + v_corr
-    return np.nanmax(v, axis=-1) - np.nanmin(v, axis=-1)
+    return _peak_to_peak(v_eq + v_corr)
