@@ -12,7 +12,7 @@ The result is a :class:`~lossbudget.budget.Budget`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -23,6 +23,7 @@ from lossbudget.losses import capacitors as capm
 from lossbudget.losses import diode as dio
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
+from lossbudget.ratings import over_rating, part_ratings
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
 
@@ -1192,7 +1193,7 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
     flags["reverse_current"] = cat(lambda p: p.ev.reverse_current) & ~bad
     flags["extrapolated"] = cat(lambda p: p.ev.extrapolated) & ~bad
     provenance = _provenance(ctx, corner)
-    return Budget(
+    budget = Budget(
         design_name=d.name,
         topology=d.topology,
         coords=dict(coords.items()),
@@ -1212,6 +1213,10 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         source_input_power=cat(lambda p: p.ev.source_power) * nan,
         loop_gain=cat(lambda p: p.loop_gain) * nan,
     )
+    # ratings at every solved point (SPEC §2.10), by the measures the envelope check uses
+    over, why = over_rating(budget, part_ratings(d, corner)[0])
+    flags["over_rating"] = over
+    return replace(budget, over_rating_reason=why)
 
 
 def _provenance(ctx: _Context, corner: Corner) -> dict:

@@ -488,7 +488,7 @@ def demo_command(out: Path) -> None:
         d = load_design(path)
     op = d.operating
     click.echo("== nominal point (vin nominal, rated load, nominal ambient) ==")
-    click.echo(point_report(solve(d, vin=op.vin.nom, load_fraction=1.0)))
+    click.echo(point_report(solve(d, vin=op.vin.nom, load_fraction=1.0), d))
     click.echo("")
     click.echo("== efficiency map ==")
     run = run_map(
