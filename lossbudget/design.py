@@ -241,6 +241,8 @@ class Inductor:
 
     count: int = 1
     l: Value
+    l_at_i: tuple[float, ...] = ()
+    l_points: tuple[Value, ...] = ()
     dcr: Value
     dcr_at: float
     i_sat: Curve | None = None
@@ -1213,9 +1215,16 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
     if tab is None:
         return None
     count = rd.integer(tab, "count", path, default=1)
-    l_val = (
-        rd.value(tab["l"], "inductor.l", dim_key="inductor.l", worse="min") if "l" in tab else None
-    )
+    l_val = None
+    l_at_i: tuple[float, ...] = ()
+    l_points: tuple[Value, ...] = ()
+    if isinstance(tab.get("l"), list):
+        got = _inductance_curve(rd, tab["l"])
+        if got is not None:
+            l_at_i, l_points = got
+            l_val = l_points[0]
+    elif "l" in tab:
+        l_val = rd.value(tab["l"], "inductor.l", dim_key="inductor.l", worse="min")
     dcr = None
     dcr_at = T_REF_DEFAULT
     if "dcr" in tab:
@@ -1242,6 +1251,8 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
     return Inductor(
         count=count,
         l=l_val,
+        l_at_i=l_at_i,
+        l_points=l_points,
         dcr=dcr,
         dcr_at=dcr_at,
         i_sat=i_sat,
@@ -1250,6 +1261,39 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
         winding=winding,
         thermal=thermal,
     )
+
+
+def _inductance_curve(rd: _Reader, raw: list) -> tuple[tuple[float, ...], tuple[Value, ...]] | None:
+    """``l = [{ l, at_i }, ...]``: the inductance over the current (a swinging choke)."""
+    if not raw:
+        rd.problem("inductor.l", "expected at least one { l, at_i } point")
+        return None
+    pts: list[tuple[float, Value]] = []
+    for n, point in enumerate(raw):
+        ppath = f"inductor.l[{n}]"
+        if not isinstance(point, dict):
+            rd.problem(ppath, f"expected a table {{ l, at_i }}, got {_show(point)}")
+            continue
+        if not rd.corner_keys(point, ppath, allowed=("l", "at_i"), worse="min"):
+            continue
+        if "l" not in point or "at_i" not in point:
+            rd.problem(ppath, "expected both l and at_i")
+            continue
+        v = rd.corner(point, ppath, "l", dim_key="inductor.l", worse="min")
+        i = rd.quantity(point["at_i"], _join(ppath, "at_i"), dim_key="inductor.l[].at_i",
+                        nonnegative=True)
+        if v is not None and i is not None:
+            pts.append((i, v))
+    if len(pts) != len(raw):
+        return None
+    if len({i for i, _ in pts}) != len(pts):
+        rd.problem("inductor.l", "expected points at distinct currents (at_i)")
+        return None
+    pts.sort(key=lambda p: p[0])
+    rd.default("inductor.l", "a curve over the current: taken at the mean inductor current "
+               "per part (the DC bias), linear between the points, held outside them; the "
+               "peak flux integrates the curve up to the peak current")
+    return tuple(i for i, _ in pts), tuple(v for _, v in pts)
 
 
 def _resistance_at(rd: _Reader, raw: Any, path: str, *, dim_key: str) -> tuple[Value, float] | None:

@@ -21,6 +21,7 @@ from lossbudget.design import Corner, Design, Diode, Mosfet
 from lossbudget.errors import DesignError
 from lossbudget.losses import capacitors as capm
 from lossbudget.losses import diode as dio
+from lossbudget.losses import inductance as ind_m
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
 from lossbudget.ratings import over_rating, part_ratings
@@ -144,6 +145,8 @@ class _Context:
     sync: bool
     dcm_allowed: bool
     l: float
+    l_at_i: tuple[float, ...]
+    l_points: tuple[float, ...]
     dcr: float
     r_pos: dict[str, float]
     caps: tuple
@@ -181,6 +184,12 @@ def _context(design: Design, corner: Corner) -> _Context:
                 f"copper_ac: Dowell's Δ1 back-solved from rac_rdc = {w.rac_rdc:g} at the "
                 "nominal fsw and 25 degC" + ("" if w.layers else ", layers = 1 assumed")
             )
+    if ind.l_at_i:
+        notes.append(
+            "inductor.l: inductance over the current, taken at the mean inductor current per "
+            "part (the DC bias the ripple rides on), linear between the points and held "
+            "outside them; the peak flux integrates the curve up to the peak current"
+        )
     caps = design.capacitors
     network = _network(design)
     parts = ("switch", "rectifier", "inductor", *(c.name for c in caps))
@@ -192,6 +201,8 @@ def _context(design: Design, corner: Corner) -> _Context:
         sync=sync,
         dcm_allowed=(not sync) or design.light_load == "diode-emulation",
         l=ind.l.pick(corner),
+        l_at_i=ind.l_at_i,
+        l_points=tuple(v.pick(corner) for v in ind.l_points),
         dcr=ind.dcr.pick(corner),
         r_pos=r_pos,
         caps=caps,
@@ -556,7 +567,14 @@ def _evaluate(
     op = d.operating
     vin_eff = g.vin
     p_extra = np.zeros(shape)
-    l_stage = ctx.l / ind.count
+    # the inductance per part: a constant, or the curve over the current taken at the mean
+    # inductor current of the previous pass (the first pass from the lossless estimate)
+    l_part = np.full(shape, ctx.l)
+    if ctx.l_at_i:
+        i_dc = {"boost": vc * i_out / g.vin, "buck": i_out,
+                "buck-boost": i_out * (g.vin + vc) / g.vin}[d.topology]
+        l_part = ind_m.inductance_at_current(i_dc / ind.count, points_i=ctx.l_at_i,
+                                             points_l=ctx.l_points)
 
     def tally(st, edge, zero, dead, slow, vin_eff):
         """The losses of one pass and the node powers they heat."""
@@ -631,12 +649,13 @@ def _evaluate(
     for step in range(steps):
         # what only the reported point needs (reasons, ripple, stresses): the last full pass
         report = full and step == steps - 1
+        l_used = l_part
         st = stage_fn(
             vin=vin_eff,
             vc=vc,
             i_out=i_out,
             fsw=g.fsw,
-            l=l_stage,
+            l=l_used / ind.count,
             r_sw=r_sw,
             r_l=r_l,
             r_rect=r_rect,
@@ -649,6 +668,14 @@ def _evaluate(
         )
         if probe and step == steps - 1:
             return st, thermal
+        if ctx.l_at_i:
+            i_mean = st.i_l.mean() / ind.count
+            l_part = np.where(
+                np.isfinite(i_mean),
+                ind_m.inductance_at_current(np.where(np.isfinite(i_mean), i_mean, 0.0),
+                                            points_i=ctx.l_at_i, points_l=ctx.l_points),
+                l_used,
+            )
         v = v_edge_of(vin_eff)
         edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, reasons=report)
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
@@ -659,7 +686,8 @@ def _evaluate(
         # final evaluation, so its stresses and rows belong to the reported operating point
         if step == 0 or slow is None or report:
             slow = _slow_losses(
-                ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report
+                ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report,
+                l_part=l_used,
             )
         if step == 0:
             slow_first = slow
@@ -700,7 +728,7 @@ def _evaluate(
     )
 
 
-def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
+def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full, l_part):
     """Core, AC copper, ESR and leakage: the losses that need harmonics or blocking intervals."""
     d = ctx.design
     ind = d.inductor
@@ -714,8 +742,15 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
     ipk_part = st.i_pk / ind.count
     delta_b = b_pk = None
     if core is not None:
-        delta_b = mag.flux_density_swing(ctx.l, di_part, turns=core.turns, ae=core.ae)
-        b_pk = mag.peak_flux_density(ctx.l, ipk_part, turns=core.turns, ae=core.ae)
+        # Faraday: the swing with the inductance the stage used; the peak from the flux
+        # linkage up to the peak current where the inductance falls with current
+        delta_b = mag.flux_density_swing(l_part, di_part, turns=core.turns, ae=core.ae)
+        if ctx.l_at_i:
+            b_pk = ind_m.flux_linkage_at_current(
+                ipk_part, points_i=ctx.l_at_i, points_l=ctx.l_points
+            ) / (core.turns * core.ae)
+        else:
+            b_pk = mag.peak_flux_density(ctx.l, ipk_part, turns=core.turns, ae=core.ae)
         pv_ccm = mag.core_loss_density_igse_ccm(
             delta_b, duty=st.duty, fsw=g.fsw, k=core.k, alpha=core.alpha, beta=core.beta
         )
@@ -803,6 +838,7 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
         "cap_rms": {**rms_in, **rms_out},
         "delta_b": delta_b,
         "b_pk": b_pk,
+        "l_part": l_part,
     }
 
 
@@ -822,6 +858,8 @@ def _stresses(ctx: _Context, st, *, vc, vin_eff, slow):
     s["inductor", "i_avg"] = st.i_l.mean() / ind.count
     s["inductor", "i_rms"] = st.i_l.rms() / ind.count
     s["inductor", "i_pk"] = st.i_pk / ind.count
+    if ctx.l_at_i:
+        s["inductor", "l"] = slow["l_part"]
     if slow["b_pk"] is not None:
         s["inductor", "b_pk"] = slow["b_pk"]
         s["inductor", "delta_b"] = slow["delta_b"]

@@ -356,6 +356,7 @@ GLOSSARY: dict[str, str] = {
     "driver.quiescent": "current",
     "driver.dead_time": "time",
     "inductor.l": "inductance",
+    "inductor.l[].at_i": "current",
     "inductor.dcr.r": "resistance",
     "inductor.dcr.at": "temperature",
     "inductor.i_sat[].i": "current",

@@ -52,6 +52,13 @@ def point_report(budget, design=None, *, derating: str | None = None) -> str:
         )
     )
     lines.append(f"  output ripple {float(budget.vout_pp.ravel()[0]) * 1e3:.1f} mV peak-to-peak")
+    if ("inductor", "l") in budget.stresses:
+        l_op = float(budget.stresses["inductor", "l"].ravel()[0])
+        i_op = float(budget.stresses["inductor", "i_avg"].ravel()[0])
+        lines.append(
+            f"  inductance {format_quantity(l_op, 'inductance', digits=4)} per part, taken at "
+            f"the mean inductor current {format_quantity(i_op, 'current', digits=4)} per part"
+        )
     over = str(budget.rating_reasons.ravel()[0])
     if over:
         lines.append(f"  OVER RATING: {over}")
