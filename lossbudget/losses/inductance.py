@@ -44,7 +44,7 @@ def inductance_at_current(i, *, points_i, points_l):
 
 
 def flux_linkage_at_current(i, *, points_i, points_l):
-    """Flux linkage λ(i) = ∫₀^i L(i') di' of an inductance that varies with current.
+    """Flux linkage λ(i) = ∫₀^i L(i′) di′ of a current-dependent inductance.
 
     Parameters
     ----------
