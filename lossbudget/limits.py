@@ -201,6 +201,8 @@ def temperature_design_limits(design: Design, *, derating: str | None = None
         parts.append((cap.name, kind, "t_hot", cap.t_max))
     out: dict[str, tuple[float, str]] = {}
     for name, kind, qty, absolute in parts:
+        if absolute is None:
+            continue  # no limit given: not checked
         margin = rows.get((kind, qty))
         if margin is None:
             out[name] = (absolute, "absolute limit (no margin in the profile)")
@@ -715,6 +717,7 @@ def check_limits(design: Design, *, derating: str | None = None,
         ))
     rows.extend(_stage_rows(design, budgets, grid, corner, varying))
     worst = max((r.status for r in rows), key=STATUS_ORDER.index, default="ok")
+
 
     dims = {"vin": "voltage", "vout": "voltage", "load": "current", "ambient": "temperature",
             "fsw": "frequency"}

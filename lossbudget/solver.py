@@ -76,14 +76,20 @@ class _Diode:
     leakage: tuple[float, float, float, float] | None
 
 
+def _pick(v, corner: Corner) -> float:
+    """A value at a corner, NaN where the design does not give it (not modelled)."""
+    return np.nan if v is None else v.pick(corner)
+
+
 def _fet(m: Mosfet, corner: Corner) -> _Fet:
-    qgs2 = (
-        m.qgs2.pick(corner)
-        if m.qgs2 is not None
-        else float(
+    if m.qgs2 is not None:
+        qgs2 = m.qgs2.pick(corner)
+    elif m.has_gate_timing:
+        qgs2 = float(
             mos.gate_plateau_charge_qgs2(m.qgs.pick(corner), v_th=m.v_th, v_plateau=m.v_plateau)
         )
-    )
+    else:
+        qgs2 = np.nan
     a = ae = None
     if m.qoss is not None:
         a = float(mos.charge_coefficient_from_q(m.qoss.value.pick(corner), v_ref=m.qoss.at))
@@ -99,10 +105,10 @@ def _fet(m: Mosfet, corner: Corner) -> _Fet:
         count=m.count,
         t_points=m.rds_on.t,
         r_points=m.rds_on.pick(corner),
-        v_plateau=m.v_plateau,
-        qg=m.qg.pick(corner),
+        v_plateau=np.nan if m.v_plateau is None else m.v_plateau,
+        qg=_pick(m.qg, corner),
         qgs2=qgs2,
-        qgd=m.qgd.pick(corner),
+        qgd=_pick(m.qgd, corner),
         rg=m.rg,
         a=a,
         ae=ae,
@@ -157,6 +163,9 @@ class _Context:
     nodes: tuple[str, ...]
     parts: tuple[str, ...]
     network: object
+    gate_drive: bool
+    quiescent: bool
+    edges_not_modelled: dict[tuple[str, str], str]
     notes: list[str] = field(default_factory=list)
 
 
@@ -190,6 +199,22 @@ def _context(design: Design, corner: Corner) -> _Context:
             "part (the DC bias the ripple rides on), linear between the points and held "
             "outside them; the peak flux integrates the curve up to the peak current"
         )
+    # optional gate and driver data (SPEC §5): an edge without them is not modelled
+    drv = design.driver
+    fets = [design.switch] + ([design.rectifier] if sync else [])
+    gate_drive = drv.given and all(f.qg is not None for f in fets)
+    timing_key = "{p}.v_plateau, qgd, qgs (with v_th) or qgs2, and driver.v_drive, r_source, r_sink"
+    edges_not_modelled = {}
+    sw_d = design.switch
+    sw_timing = drv.given and sw_d.has_gate_timing
+    if sw_d.eon is None and not sw_timing:
+        edges_not_modelled["switch", "turn_on"] = timing_key.format(p="switch") + " (or switch.eon)"
+    if sw_d.eoff is None and not sw_timing:
+        edges_not_modelled["switch", "turn_off"] = (
+            timing_key.format(p="switch") + " (or switch.eoff)"
+        )
+    if sync and not (drv.given and design.rectifier.has_gate_timing):
+        edges_not_modelled["rectifier", "turn_off"] = timing_key.format(p="rectifier")
     caps = design.capacitors
     network = _network(design)
     parts = ("switch", "rectifier", "inductor", *(c.name for c in caps))
@@ -213,6 +238,10 @@ def _context(design: Design, corner: Corner) -> _Context:
         nodes=network.nodes,
         parts=parts,
         network=network,
+        gate_drive=gate_drive,
+        quiescent=bool(np.isfinite(drv.quiescent))
+        and (drv.supply != "aux" or drv.v_aux is not None or np.isfinite(drv.v_drive)),
+        edges_not_modelled=edges_not_modelled,
         notes=notes,
     )
 
@@ -554,7 +583,9 @@ def _evaluate(
     r_rect = r_rc + rp["rectifier"] + (0.0 if buck else rp["output"])
     r_l = dcr + rp["inductor"] + (rp["output"] if buck else 0.0)
     vc = g.vout + rp["load"] * g.load
-    qg_total = sw.qg * sw.count + (rc.qg * rc.count if ctx.sync else 0.0)
+    qg_total = 0.0
+    if ctx.gate_drive:
+        qg_total = sw.qg * sw.count + (rc.qg * rc.count if ctx.sync else 0.0)
     i_gate = qg_total * g.fsw
     i_q = d.driver.quiescent if np.isfinite(d.driver.quiescent) else 0.0
     i_sup = i_gate + i_q
@@ -611,10 +642,11 @@ def _evaluate(
                 res.r.pick(ctx.corner) / res.count * ms_at[res.position]()
             )
         v_supply = _supply_voltage(ctx, vin_eff, vc)
-        losses["driver", "gate_drive"] = mos.gate_drive_power(
-            qg_total, v_supply=v_supply, fsw=g.fsw
-        )
-        if np.isfinite(d.driver.quiescent):
+        if ctx.gate_drive:
+            losses["driver", "gate_drive"] = mos.gate_drive_power(
+                qg_total, v_supply=v_supply, fsw=g.fsw
+            )
+        if ctx.quiescent:
             losses["controller", "quiescent"] = i_q * v_supply
         # node powers: each part's losses, plus the gate energy burnt in its internal resistance
         share_sw = mos.gate_resistance_share(
@@ -628,10 +660,11 @@ def _evaluate(
         for (comp, _), val in losses.items():
             if comp in ctx.nodes:
                 node_power[..., ctx.nodes.index(comp)] += val
-        node_power[..., ctx.nodes.index("switch")] += (
-            sw.qg * sw.count * g.fsw * d.driver.v_drive * share_sw
-        )
-        if ctx.sync:
+        if ctx.gate_drive:
+            node_power[..., ctx.nodes.index("switch")] += (
+                sw.qg * sw.count * g.fsw * d.driver.v_drive * share_sw
+            )
+        if ctx.sync and ctx.gate_drive:
             share_rc = mos.gate_resistance_share(
                 rg=rc.rg,
                 r_source=d.driver.r_source,
@@ -678,6 +711,8 @@ def _evaluate(
             )
         v = v_edge_of(vin_eff)
         edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, reasons=report)
+        for key in ctx.edges_not_modelled:  # no gate data: the edge is not modelled
+            edge.pop(key, None)
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
         # an infeasible point keeps its first, finite inputs so that its reason stays the
         # stage's own (NaN would turn every check false)
@@ -709,7 +744,7 @@ def _evaluate(
         return node_power
     aux = d.driver.supply == "aux"
     source_power = g.vin * i_in_total + (
-        losses["driver", "gate_drive"] + losses.get(("controller", "quiescent"), 0.0)
+        losses.get(("driver", "gate_drive"), 0.0) + losses.get(("controller", "quiescent"), 0.0)
         if aux
         else 0.0
     )
@@ -883,6 +918,9 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     st["switch", "conduction"] = ("computed", "")
     st["switch", "turn_on"] = ("computed", "")
     st["switch", "turn_off"] = ("computed", "")
+    for key in (("switch", "turn_on"), ("switch", "turn_off")):
+        if key in ctx.edges_not_modelled:
+            st[key] = ("not_modelled", ctx.edges_not_modelled[key])
     st["switch", "coss"] = ("computed", "") if (sw.qoss or sw.eoss) else ("not_modelled", coss_key)
     if ctx.sync:
         has_dt = d.driver.dead_time is not None
@@ -910,7 +948,11 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     if ctx.sync:
         st["rectifier", "conduction"] = ("computed", "")
         st["rectifier", "turn_on"] = ("computed", "")
-        st["rectifier", "turn_off"] = ("computed", "")
+        st["rectifier", "turn_off"] = (
+            ("not_modelled", ctx.edges_not_modelled["rectifier", "turn_off"])
+            if ("rectifier", "turn_off") in ctx.edges_not_modelled
+            else ("computed", "")
+        )
         has = (sw.qoss or sw.eoss) and (rc.qoss or rc.eoss) and d.driver.dead_time is not None
         st["rectifier", "coss"] = (
             ("computed", "")
@@ -945,13 +987,31 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
         st[c.name, "esr"] = ("computed", "")
     for r in d.resistors:
         st[r.name, "conduction"] = ("computed", "")
-    st["driver", "gate_drive"] = ("computed", "")
+    st["driver", "gate_drive"] = (
+        ("computed", "")
+        if ctx.gate_drive
+        else (
+            "not_modelled",
+            "driver.v_drive, r_source, r_sink and switch.qg"
+            + (" and rectifier.qg" if ctx.sync else ""),
+        )
+    )
     st["controller", "quiescent"] = (
         ("computed", "")
-        if np.isfinite(d.driver.quiescent)
-        else ("not_modelled", "driver.quiescent")
+        if ctx.quiescent
+        else (
+            "not_modelled",
+            "driver.quiescent" if not np.isfinite(d.driver.quiescent) else "driver.v_aux",
+        )
     )
     return st
+
+
+def not_modelled(design: Design) -> list[tuple[str, str, str]]:
+    """(component, mechanism, the key that would enable it) for every mechanism left out."""
+    ctx = _context(design, "typ")
+    return [(c, m, note) for (c, m), (kind, note) in _statuses(ctx).items()
+            if kind == "not_modelled"]
 
 
 # --------------------------------------------------------------------------------------------
@@ -1214,6 +1274,7 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         "inductor": d.inductor.t_max,
         **{c.name: c.t_max for c in d.capacitors},
     }
+    limits = {k: np.nan if v is None else v for k, v in limits.items()}  # NaN: not given
     stresses = {
         k: cat(lambda p, k=k: np.broadcast_to(p.ev.stresses[k], p.pout.shape)) * nan
         for k in pieces[0].ev.stresses

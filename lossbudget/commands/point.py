@@ -148,11 +148,14 @@ def _temperature_table(budget, design, derating) -> list[str]:
     rows = []
     for node, temp in budget.temperatures.items():
         rated = budget.temperature_limits.get(node)
+        rated = None if rated is None or not np.isfinite(rated) else rated
         limit = derated.get(node, rated)
         t = float(temp.ravel()[0])
         status = ""
         if rated is not None:
             status = "OVER RATING" if t > rated else "over design limit" if t > limit else "ok"
+        elif node in budget.temperature_limits:
+            status = "not checked"
         rows.append([
             node,
             f"{t:.1f}",

@@ -548,7 +548,8 @@ def temperature_curves(budget: Budget, path, *, vin=None,
     limits: dict[float, list[str]] = {}
     derated = design_limits or {}
     for p in parts:
-        limits.setdefault(float(derated.get(p, budget.temperature_limits[p])), []).append(p)
+        if np.isfinite(budget.temperature_limits[p]):  # a part without its limit: no line
+            limits.setdefault(float(derated.get(p, budget.temperature_limits[p])), []).append(p)
     for value, group in limits.items():
         k = len(group)
         for i, p in enumerate(group):
