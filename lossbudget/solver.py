@@ -24,6 +24,7 @@ from lossbudget.losses import diode as dio
 from lossbudget.losses import inductance as ind_m
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
+from lossbudget.losses import overshoot as osh
 from lossbudget.ratings import over_rating, part_ratings
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
@@ -165,6 +166,7 @@ class _Context:
     network: object
     gate_drive: bool
     quiescent: bool
+    overshoot: bool
     edges_not_modelled: dict[tuple[str, str], str]
     notes: list[str] = field(default_factory=list)
 
@@ -213,6 +215,16 @@ def _context(design: Design, corner: Corner) -> _Context:
         edges_not_modelled["switch", "turn_off"] = (
             timing_key.format(p="switch") + " (or switch.eoff)"
         )
+    overshoot = sw_d.loop_inductance is not None and sw_timing
+    if sw_d.loop_inductance is not None:
+        notes.append(
+            "switch v_pk allowance: the turn-off overshoot L_loop·I_pk/t_fi (switch."
+            "loop_inductance, t_fi from the gate-charge timing) replaces limits.v_spike"
+            if overshoot
+            else "switch.loop_inductance: the turn-off overshoot cannot be derived without the "
+            "gate-charge timing (switch.v_plateau, qgd, qgs or qgs2 and the driver); "
+            "limits.v_spike is used instead"
+        )
     if sync and not (drv.given and design.rectifier.has_gate_timing):
         edges_not_modelled["rectifier", "turn_off"] = timing_key.format(p="rectifier")
     caps = design.capacitors
@@ -242,6 +254,7 @@ def _context(design: Design, corner: Corner) -> _Context:
         quiescent=bool(np.isfinite(drv.quiescent))
         and (drv.supply != "aux" or drv.v_aux is not None or np.isfinite(drv.v_drive)),
         edges_not_modelled=edges_not_modelled,
+        overshoot=overshoot,
         notes=notes,
     )
 
@@ -889,6 +902,12 @@ def _stresses(ctx: _Context, st, *, vc, vin_eff, slow):
         s[comp, "i_rms"] = wave.rms() / count
         s[comp, "i_pk"] = wave.peak() / count
         s[comp, "v_pk"] = v_blk
+    if ctx.overshoot:
+        # the loop current falls in t_fi at the main switch's turn-off (SPEC §2.10)
+        t_fi = _gate_timing(ctx.sw, d.driver)[3]
+        s["switch", "v_overshoot"] = osh.turn_off_overshoot(
+            d.switch.loop_inductance, st.i_pk, t_fi
+        )
     ind = d.inductor
     s["inductor", "i_avg"] = st.i_l.mean() / ind.count
     s["inductor", "i_rms"] = st.i_l.rms() / ind.count

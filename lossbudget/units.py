@@ -309,6 +309,7 @@ _MOSFET_KEYS = {
     "body_diode.qrr.at": "temperature",
     "body_diode.erec": "energy",
     "tj_max": "temperature",
+    "loop_inductance": "inductance",
     "count": "number",
 }
 
