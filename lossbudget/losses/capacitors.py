@@ -15,6 +15,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from lossbudget.waveforms import fourier_coefficients_pwl
+
 ESR_FLOOR = 1e-6
 N_SAMPLES = 64  # uniform time samples of the multi-bank correction per period
 
@@ -215,47 +217,6 @@ def _candidates(t, a, b, d, *, r, k_q):
                 values.append(np.where(ok, v, np.nan))
             q = np.where(live, q_end, q)
     return np.stack(taus, axis=-1), np.stack(values, axis=-1)
-
-
-def fourier_coefficients_pwl(t, start, end, *, n_max):
-    """Complex Fourier coefficients c_1..c_N of a periodic PWL waveform.
-
-    Parameters
-    ----------
-    t : array_like
-        Segment boundaries as fractions of the period, last axis (K + 1 values, 0 to 1). [-]
-    start, end : array_like
-        Value at the start and the end of each segment, last axis. [A]
-    n_max : int
-        Highest harmonic. [-]
-
-    Returns
-    -------
-    ndarray
-        c_n = <x·e^(−j2πnτ)> at index n − 1 along a new last axis (complex). [A]
-
-    Notes
-    -----
-    Integrating twice by parts, with slopes s_k (per period), jumps J_k at the boundaries t_k
-    and ω = 2πn: c_n = Σ_k e^(−jωt_k)·[J_k + (s_k − s_(k−1))/(jω)]/(jω). A zero-length segment
-    counts as a jump.
-
-    References
-    ----------
-    .. [1] R. W. Erickson, D. Maksimović, Fundamentals of Power Electronics, 2nd ed., Kluwer,
-       2001, section on PWM waveform harmonics (Fourier series of piecewise-linear waveforms).
-    """
-    t, a, b, d = _segments(t, start, end)
-    long = d > 0
-    with np.errstate(divide="ignore", invalid="ignore"):
-        slope = np.where(long, (b - a) / d, 0.0)
-    jump = a - np.roll(b, 1, axis=-1) + np.where(long, 0.0, b - a)
-    ds = slope - np.roll(slope, 1, axis=-1)
-    n = np.arange(1, n_max + 1)
-    w = 2j * np.pi * n  # (N,)
-    phase = np.exp(-w * t[..., :-1, None])  # (..., K, N)
-    terms = phase * (jump[..., None] + ds[..., None] / w) / w
-    return np.sum(terms, axis=-2)
 
 
 def _pwl_value_at(tau, t, a, b, d):
