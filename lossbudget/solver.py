@@ -1360,6 +1360,9 @@ def _provenance(ctx: _Context, corner: Corner) -> dict:
         "windings",
         "capacitors: ESR constant over the harmonics; banks at one position share each harmonic "
         "by impedance",
+        "output ripple: the exact peak-to-peak of ESR·i + ∫i dt/C over the piecewise-linear "
+        "bank current (closed-form extremes); several banks: the equivalent bank (ΣC, ESRs in "
+        "parallel) exactly plus the network's remainder from the harmonics",
         f"thermal: coupled fixed point from the ambient, error within {THERMAL_TOL} K; runaway "
         f"when the loop gain reaches 1 or a node passes {CEILING:g} degC",
     ]
