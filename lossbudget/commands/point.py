@@ -90,18 +90,21 @@ def point_report(budget, design=None, *, derating: str | None = None) -> str:
     for comp, _ in budget.stresses:
         if comp not in comps:
             comps.append(comp)
+    columns = [
+        ("i_avg", "{:.3f}", "I avg (A)"),
+        ("i_rms", "{:.3f}", "I rms (A)"),
+        ("i_pk", "{:.3f}", "I pk (A)"),
+        ("v_pk", "{:.2f}", "V pk (V)"),
+        ("v_overshoot", "{:.2f}", "V overshoot (V)"),
+        ("b_pk", "{:.4f}", "B pk (T)"),
+        ("delta_b", "{:.4f}", "dB pp (T)"),
+    ]
+    # a quantity no part has (the overshoot without switch.loop_inductance) gets no column
+    columns = [c for c in columns if any(q == c[0] for _, q in budget.stresses)]
     srows = []
     for comp in comps:
         row = [comp]
-        for q, fmt in (
-            ("i_avg", "{:.3f}"),
-            ("i_rms", "{:.3f}"),
-            ("i_pk", "{:.3f}"),
-            ("v_pk", "{:.2f}"),
-            ("v_overshoot", "{:.2f}"),
-            ("b_pk", "{:.4f}"),
-            ("delta_b", "{:.4f}"),
-        ):
+        for q, fmt, _ in columns:
             row.append(
                 fmt.format(float(budget.stresses[comp, q].ravel()[0]))
                 if (comp, q) in budget.stresses
@@ -110,10 +113,9 @@ def point_report(budget, design=None, *, derating: str | None = None) -> str:
         srows.append(row)
     lines.append(
         aligned_table(
-            ["part", "I avg (A)", "I rms (A)", "I pk (A)", "V pk (V)", "V overshoot (V)",
-             "B pk (T)", "dB pp (T)"],
+            ["part", *(h for _, _, h in columns)],
             srows,
-            right=[False] + [True] * 7,
+            right=[False] + [True] * len(columns),
             indent="  ",
         )
     )
