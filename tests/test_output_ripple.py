@@ -56,16 +56,20 @@ def test_buck_12v_to_5v_one_100uf_30mohm_part_against_exact_circuit():
     assert got < hand_sum
 
 
-PARAMS = [(t, r) for t in CASES for r in ("diode", "sync")]
+PARAMS = [(t, r, w) for t in CASES for r in ("diode", "sync", "sync-emulated")
+          for w in ("ccm", "dcm")]
 
 
-@pytest.mark.parametrize(("topology", "rectifier"), PARAMS)
-def test_output_ripple_matches_exact_circuit_in_every_topology(topology, rectifier):
+@pytest.mark.parametrize(("topology", "rectifier", "which"), PARAMS)
+def test_output_ripple_matches_exact_circuit_in_every_topology(topology, rectifier, which):
     """SPEC §2.5: the exact switched-circuit solution agrees within a few per cent in every
-    topology (CCM points of the reference suite)."""
-    vin, vout, load, _ = CASES[topology]
+    topology; the 18 cases of the reference suite (CCM and DCM loads) agree within 0.5 %
+    (measured), held here at 1 %."""
+    vin, vout, load_ccm, load_dcm = CASES[topology]
+    load = load_ccm if which == "ccm" else load_dcm
     kw = {"vf0": VF0, "rd": RD} if rectifier == "diode" else {"r_sync": R_SYNC}
     ref = regulate(topology=topology, rectifier=rectifier, vin=vin, vout=abs(vout), fsw=FSW,
                    l=L, dcr=DCR, c=C_OUT, esr=ESR, r_load=abs(vout) / load, r_switch=R_SW, **kw)
     b = lb.solve(_reference_design(topology, rectifier), vin=vin, load=ref.iout_avg)
-    np.testing.assert_allclose(float(b.vout_pp), ref.vout_pp, rtol=0.03)
+    assert b.mode[()] == ref.mode
+    np.testing.assert_allclose(float(b.vout_pp), ref.vout_pp, rtol=0.01)
