@@ -101,3 +101,29 @@ def test_validate_and_point_say_which_current_is_used(tmp_path):
     assert "mean inductor current" in out
     out = CliRunner().invoke(main, ["point", str(path)]).output
     assert "taken at the mean inductor current" in out
+
+
+def test_model_functions_broadcast_grid_equals_points():
+    """Contract (STYLE §6.3): a 2-D grid gives the point-by-point values."""
+    from lossbudget.losses.overshoot import turn_off_overshoot
+
+    i = np.linspace(-3.0, 18.0, 12).reshape(3, 4)
+    t_fi = np.linspace(1e-9, 5e-9, 4)  # broadcast along the last axis
+    funcs = (
+        lambda x, c: inductance_at_current(x, points_i=PTS_I, points_l=PTS_L),
+        lambda x, c: flux_linkage_at_current(x, points_i=PTS_I, points_l=PTS_L),
+        lambda x, c: turn_off_overshoot(3e-9, x, t_fi if c is None else t_fi[c]),
+    )
+    for func in funcs:
+        got = func(i, None)
+        assert got.shape == i.shape
+        want = np.array([[float(func(float(i[r, c]), c)) for c in range(4)] for r in range(3)])
+        np.testing.assert_allclose(got, want, rtol=1e-15)
+
+
+def test_overshoot_is_l_di_dt():
+    """v = L·I/t_fi (the inductor law with a linear fall): 3 nH, 10 A in 2 ns is 15 V."""
+    from lossbudget.losses.overshoot import turn_off_overshoot
+
+    np.testing.assert_allclose(turn_off_overshoot(3e-9, 10.0, 2e-9), 15.0, rtol=1e-15)
+    assert np.isnan(turn_off_overshoot(3e-9, 10.0, 0.0))
