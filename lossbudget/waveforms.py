@@ -281,11 +281,16 @@ def fourier_coefficients_pwl(t, start, end, *, n_max):
         slope = np.where(long, (b - a) / d, 0.0)
     jump = a - np.roll(b, 1, axis=-1) + np.where(long, 0.0, b - a)
     ds = slope - np.roll(slope, 1, axis=-1)
-    n = np.arange(1, n_max + 1)
-    w = 2j * np.pi * n  # (N,)
-    phase = np.exp(-w * t[..., :-1, None])  # (..., K, N)
-    terms = phase * (jump[..., None] + ds[..., None] / w) / w
-    return np.sum(terms, axis=-2)
+    # harmonic by harmonic, e^(−j2πn t_k) by repeated multiplication
+    base = np.exp(-2j * np.pi * t[..., :-1])  # (..., K)
+    power = base.copy()
+    out = np.empty((*base.shape[:-1], n_max), dtype=complex)
+    for n in range(1, n_max + 1):
+        if n > 1:
+            power *= base
+        w = 2j * np.pi * n
+        out[..., n - 1] = np.sum(power * (jump + ds / w), axis=-1) / w
+    return out
 
 
 def derivative_mean_square_pwl(durations, start, end):

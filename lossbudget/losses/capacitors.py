@@ -89,16 +89,23 @@ def bank_mean_squares(harmonics, ms_ac, *, esr, capacitance, fsw):
     esr = np.asarray(esr, dtype=float)
     cap = np.asarray(capacitance, dtype=float)
     ms_ac = np.asarray(ms_ac, dtype=float)
-    if esr.shape[-1] == 1:
+    nb = esr.shape[-1]
+    if nb == 1:
         return np.broadcast_to(ms_ac[..., None], np.broadcast_shapes((*ms_ac.shape, 1),
                                                                       esr.shape)).copy()
     n = np.arange(1, harm.shape[-1] + 1)
-    w = 2 * np.pi * n * np.asarray(fsw, dtype=float)[..., None]  # (..., N)
-    y = 1.0 / (esr[..., None, :] + 1.0 / (1j * w[..., None] * cap[..., None, :]))  # (..., N, B)
-    share = np.abs(y / np.sum(y, axis=-1, keepdims=True)) ** 2
+    jw = 2j * np.pi * n * np.asarray(fsw, dtype=float)[..., None]  # (..., N)
+    # the bank axis is short: one admittance array per bank (contiguous, points × harmonics)
+    y = [1.0 / (esr[..., k, None] + 1.0 / (jw * cap[..., k, None])) for k in range(nb)]
+    y_sum = sum(y)
     power = harm * harm
     tail = np.maximum(ms_ac - np.sum(power, axis=-1), 0.0)
-    return np.sum(power[..., None] * share, axis=-2) + tail[..., None] * share[..., -1, :]
+    out = []
+    for k in range(nb):
+        ratio = y[k] / y_sum
+        share = ratio.real**2 + ratio.imag**2
+        out.append(np.sum(power * share, axis=-1) + tail * share[..., -1])
+    return np.stack(out, axis=-1)
 
 
 def esr_loss(esr, mean_square):
@@ -219,32 +226,26 @@ def _candidates(t, a, b, d, *, r, k_q):
     return np.stack(taus, axis=-1), np.stack(values, axis=-1)
 
 
-def _pwl_value_at(tau, t, a, b, d):
-    """The waveform's value at times tau (..., M), from the segment holding each time."""
-    out = np.zeros(np.broadcast_shapes(tau.shape, (*a.shape[:-1], 1)))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        for k in range(a.shape[-1]):
-            lo, hi = t[..., k, None], t[..., k + 1, None]
-            inside = (tau >= lo) & (tau < hi) & (d[..., k, None] > 0)
-            s = np.where(inside, (tau - lo) / d[..., k, None], 0.0)
-            out = np.where(inside, a[..., k, None] + (b[..., k, None] - a[..., k, None]) * s, out)
-    return out
+def _value_and_integral_at(tau, t, a, b, d):
+    """The waveform and its running integral ∫₀^τ x dτ' (per period) at times tau (..., M)."""
+    k_seg = a.shape[-1]
+    # the segment holding each time: the last one that starts at or before it (a segment of
+    # zero length is passed over, since the next one starts at the same instant)
+    idx = np.zeros(tau.shape, dtype=np.intp)
+    for k in range(1, k_seg):
+        idx += tau >= t[..., k, None]
+    q_start = np.concatenate(
+        [np.zeros((*a.shape[:-1], 1)), np.cumsum(d * (a + b) * 0.5, axis=-1)[..., :-1]], axis=-1
+    )
 
+    def at(x):
+        return np.take_along_axis(np.broadcast_to(x, (*tau.shape[:-1], k_seg)), idx, axis=-1)
 
-def _running_integral_at(tau, t, a, b, d):
-    """∫₀^τ x dτ' (per period) at times tau (..., M)."""
-    out = np.zeros(np.broadcast_shapes(tau.shape, (*a.shape[:-1], 1)))
-    q = np.zeros((*a.shape[:-1], 1))
+    dk, ak, bk = at(d), at(a), at(b)
     with np.errstate(divide="ignore", invalid="ignore"):
-        for k in range(a.shape[-1]):
-            lo = t[..., k, None]
-            dk = d[..., k, None]
-            ak, bk = a[..., k, None], b[..., k, None]
-            inside = (tau >= lo) & (tau < lo + dk) & (dk > 0)
-            s = np.where(inside, (tau - lo) / dk, 0.0)
-            out = np.where(inside, q + dk * (ak * s + 0.5 * (bk - ak) * s * s), out)
-            q = q + dk * (ak + bk) * 0.5
-    return out
+        s = np.where(dk > 0, (tau - at(t[..., :-1])) / dk, 0.0)
+    value = ak + (bk - ak) * s
+    return value, at(q_start) + dk * (ak * s + 0.5 * (bk - ak) * s * s)
 
 
 def ripple_voltage_banks(t, start, end, *, fsw, esr, capacitance, n_harmonics=24):
@@ -301,21 +302,30 @@ def ripple_voltage_banks(t, start, end, *, fsw, esr, capacitance, n_harmonics=24
     # uniform grid, where the correction may move the extremes
     tau_c, v_c = _candidates(t, a, b, d, r=r_inf, k_q=k_q)
     lead = v_c.shape[:-1]
-    tau_grid = np.broadcast_to(np.linspace(0.0, 1.0, N_SAMPLES, endpoint=False),
-                               (*lead, N_SAMPLES))
-    v_grid = r_inf[..., None] * _pwl_value_at(tau_grid, t, a, b, d) + k_q[..., None] * (
-        _running_integral_at(tau_grid, t, a, b, d)
-    )
-    tau = np.concatenate([tau_grid, tau_c], axis=-1)
-    v_eq = np.concatenate([v_grid, v_c], axis=-1)
-    # the correction from the harmonics
+    m = max(N_SAMPLES, 2 * n_harmonics + 2)  # the grid resolves every harmonic used
+    tau_grid = np.broadcast_to(np.linspace(0.0, 1.0, m, endpoint=False), (*lead, m))
+    x_grid, q_grid = _value_and_integral_at(tau_grid, t, a, b, d)
+    v_grid = r_inf[..., None] * x_grid + k_q[..., None] * q_grid
+    # the correction from the harmonics by an inverse real FFT on a uniform grid; at the
+    # candidate instants interpolated linearly on a 4× finer grid (it is smooth: its
+    # harmonics fall one order faster than the current's)
     coef = fourier_coefficients_pwl(t, a, b, n_max=n_harmonics)  # (..., N)
     n = np.arange(1, n_harmonics + 1)
-    w = 2 * np.pi * n * fsw[..., None]  # (..., N)
-    y = 1.0 / (r[..., None, :] + 1.0 / (1j * w[..., None] * c[..., None, :]))
-    z_d = 1.0 / np.sum(y, axis=-1) - r_inf[..., None] - 1.0 / (1j * w * c_tot[..., None])
-    amp = z_d * coef  # (..., N)
-    v_corr = np.zeros(tau.shape)
-    for j in range(n_harmonics):
-        v_corr += 2.0 * np.real(amp[..., j, None] * np.exp(2j * np.pi * (j + 1) * tau))
+    jw = 2j * np.pi * n * fsw[..., None]  # (..., N)
+    y_sum = sum(1.0 / (r[..., k, None] + 1.0 / (jw * c[..., k, None]))
+                for k in range(r.shape[-1]))
+    amp = (1.0 / y_sum - r_inf[..., None] - 1.0 / (jw * c_tot[..., None])) * coef
+    fine = 4 * m  # the correction on a 4× finer grid, interpolated at the candidates
+    spectrum = np.zeros((*amp.shape[:-1], fine // 2 + 1), dtype=complex)
+    spectrum[..., 1:n_harmonics + 1] = fine * amp
+    corr_fine = np.fft.irfft(spectrum, n=fine, axis=-1)
+    corr_grid = corr_fine[..., ::4]
+    pos = np.mod(tau_c, 1.0) * fine
+    lo = np.minimum(np.floor(pos).astype(np.intp), fine - 1)
+    frac = pos - lo
+    corr_c = (1.0 - frac) * np.take_along_axis(corr_fine, lo, axis=-1) + frac * np.take_along_axis(
+        corr_fine, (lo + 1) % fine, axis=-1
+    )
+    v_eq = np.concatenate([v_grid, v_c], axis=-1)
+    v_corr = np.concatenate([corr_grid, corr_c], axis=-1)
     return _peak_to_peak(v_eq + v_corr)
