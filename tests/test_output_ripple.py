@@ -73,3 +73,42 @@ def test_output_ripple_matches_exact_circuit_in_every_topology(topology, rectifi
     b = lb.solve(_reference_design(topology, rectifier), vin=vin, load=ref.iout_avg)
     assert b.mode[()] == ref.mode
     np.testing.assert_allclose(float(b.vout_pp), ref.vout_pp, rtol=0.01)
+
+
+@pytest.mark.parametrize("topology", list(CASES))
+def test_two_banks_of_equal_time_constant_match_the_one_bank_exact_circuit(topology):
+    """Banks with R1·C1 = R2·C2 are exactly one bank of ΣC and the ESRs in parallel (the
+    network's impedance (1 + jωτ)/(jωΣC); circuit theory): C_OUT/3 with 3·ESR beside 2·C_OUT/3
+    with 1.5·ESR must give the reference circuit's ripple for C_OUT and ESR, through the
+    engine's several-bank path."""
+    vin, vout, load, _ = CASES[topology]
+    ref = regulate(topology=topology, rectifier="diode", vin=vin, vout=abs(vout), fsw=FSW, l=L,
+                   dcr=DCR, c=C_OUT, esr=ESR, r_load=abs(vout) / load, r_switch=R_SW, vf0=VF0,
+                   rd=RD)
+    raw_caps = [
+        {"name": "cout_a", "position": "output", "c": f"{C_OUT / 3} F", "esr": f"{3 * ESR} ohm",
+         "v_rated": "100 V", "t_max": "105 degC", "thermal": {"rth_ha": "1e-6 K/W"}},
+        {"name": "cout_b", "position": "output", "c": f"{2 * C_OUT / 3} F",
+         "esr": f"{1.5 * ESR} ohm", "v_rated": "100 V", "t_max": "105 degC",
+         "thermal": {"rth_ha": "1e-6 K/W"}},
+    ]
+    two = lb.load_design({
+        "design": {"name": "two equal-time-constant banks", "topology": topology,
+                   "rectifier": "diode"},
+        "operating": {"vin": f"{vin} V", "vout": f"{vout} V", "iout_rated": "5 A",
+                      "fsw": f"{FSW} Hz", "ambient": "25 degC", "max_duty": 0.98},
+        "switch": {"vds_rated": "100 V", "rds_on": f"{R_SW} ohm", "v_th": "2 V",
+                   "v_plateau": "3 V", "qg": "1e-6 nC", "qgs": "4e-7 nC", "qgd": "4e-7 nC",
+                   "rg": "1 ohm", "tj_max": "150 degC", "thermal": {"rth_ha": "1e-6 K/W"}},
+        "driver": {"v_drive": "10 V", "r_source": "1 ohm", "r_sink": "1 ohm"},
+        "rectifier": {"vr_rated": "100 V", "vf0": f"{VF0} V", "rd": f"{RD} ohm",
+                      "tj_max": "150 degC", "thermal": {"rth_ha": "1e-6 K/W"}},
+        "inductor": {"l": f"{L} H", "dcr": f"{DCR} ohm", "t_max": "125 degC",
+                     "thermal": {"rth_ha": "1e-6 K/W"}},
+        "capacitor": raw_caps,
+    })
+    b = lb.solve(two, vin=vin, load=ref.iout_avg)
+    np.testing.assert_allclose(float(b.vout_pp), ref.vout_pp, rtol=0.01)
+    # the banks share the ripple current as 1/3 and 2/3 of it at every harmonic
+    np.testing.assert_allclose(b.stress("cout_b", "i_rms"), 2 * b.stress("cout_a", "i_rms"),
+                               rtol=1e-9)
