@@ -72,6 +72,7 @@ class Budget:
     source_input_power: np.ndarray = field(repr=False)
     loop_gain: np.ndarray = field(repr=False)
     over_rating_reason: np.ndarray | None = field(default=None, repr=False)
+    diverging_temperatures: dict[str, np.ndarray] = field(default_factory=dict, repr=False)
 
     # -- derived figures -------------------------------------------------------------------
 

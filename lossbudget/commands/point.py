@@ -19,6 +19,22 @@ from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
 
+def _diverging(budget) -> list[str]:
+    """The last iteration's temperatures of a point that ran away (none where it solved)."""
+    last = {n: float(np.ravel(t)[0]) for n, t in budget.diverging_temperatures.items()}
+    if not last or not all(np.isfinite(v) for v in last.values()):
+        return []
+    limits = {n: v for n, v in budget.temperature_limits.items()
+              if v is not None and np.isfinite(v)}  # NaN: a limit not given
+    rows = [[n, f"{t:.1f}", "" if limits.get(n) is None else f"{limits[n]:g}",
+             "past its limit" if limits.get(n) is not None and t > limits[n] else ""]
+            for n, t in last.items()]
+    return ["  temperatures at the last iteration of the coupled solve: DIVERGING, not a "
+            "solution",
+            aligned_table(["node", "last iteration (degC)", "limit (degC)", ""], rows,
+                          right=[False, True, True, False], indent="  "), ""]
+
+
 def point_report(budget, design=None, *, derating: str | None = None) -> str:
     """The text report of a one-point budget (loss table, figures, temperatures, stresses).
 
@@ -36,6 +52,7 @@ def point_report(budget, design=None, *, derating: str | None = None) -> str:
     if bool(np.asarray(budget.flagged).ravel()[0]):
         lines.append(f"  not solved: {np.asarray(budget.reason).ravel()[0]}")
         lines.append("")
+        lines.extend(_diverging(budget))
         lines.extend(f"  caution: {text}" for text in CAUTIONS)
         return "\n".join(lines)
     eff = float(np.asarray(budget.efficiency).ravel()[0])
@@ -91,9 +108,9 @@ def point_report(budget, design=None, *, derating: str | None = None) -> str:
         if comp not in comps:
             comps.append(comp)
     columns = [
-        ("i_avg", "{:.3f}", "I avg (A)"),
-        ("i_rms", "{:.3f}", "I rms (A)"),
-        ("i_pk", "{:.3f}", "I pk (A)"),
+        ("i_avg", "{:.3f}", "I avg (A/part)"),
+        ("i_rms", "{:.3f}", "I rms (A/part)"),
+        ("i_pk", "{:.3f}", "I pk (A/part)"),
         ("v_pk", "{:.2f}", "V pk (V)"),
         ("v_overshoot", "{:.2f}", "V overshoot (V)"),
         ("b_pk", "{:.4f}", "B pk (T)"),
@@ -119,6 +136,7 @@ def point_report(budget, design=None, *, derating: str | None = None) -> str:
             indent="  ",
         )
     )
+    lines.append("  currents per part: a capacitor bank's (or parallel devices') current / count")
     missing = budget.not_modelled
     if missing:
         lines.append("")
