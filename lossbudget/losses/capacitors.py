@@ -320,7 +320,7 @@ def ripple_voltage_banks(t, start, end, *, fsw, esr, capacitance, n_harmonics=24
     spectrum[..., 1:n_harmonics + 1] = fine * amp
     corr_fine = np.fft.irfft(spectrum, n=fine, axis=-1)
     corr_grid = corr_fine[..., ::4]
-    pos = np.mod(tau_c, 1.0) * fine
+    pos = np.where(np.isfinite(tau_c), np.mod(tau_c, 1.0), 0.0) * fine  # NaN: no candidate
     lo = np.minimum(np.floor(pos).astype(np.intp), fine - 1)
     frac = pos - lo
     corr_c = (1.0 - frac) * np.take_along_axis(corr_fine, lo, axis=-1) + frac * np.take_along_axis(
