@@ -75,8 +75,9 @@ def test_noisy_data_recover_the_factors_within_their_standard_errors(demo):
     The factors are strongly correlated (switching with rth.board near −0.97 here), so the
     region is the covariance ellipsoid, δθᵀC⁻¹δθ below the 99.9th percentile of χ² with 3
     degrees of freedom, and each factor within 3 standard errors (textbook normal theory).
-    This seed's draw is in the tail (δθᵀC⁻¹δθ = 11.8, p ≈ 0.8 %); over seeds 1-8 the mean of
-    δθᵀC⁻¹δθ was 2.2 against the χ²(3) mean of 3 (measured while writing this test).
+    This seed's draw is in the tail (δθᵀC⁻¹δθ = 11.7, p ≈ 0.9 %); over seeds 1-8 the mean of
+    δθᵀC⁻¹δθ was 3.4 (2.3 without seed 7) against the χ²(3) mean of 3 (measured while
+    writing this test; seed 7 was the first one tried).
     """
     from scipy.stats import chi2
 
