@@ -155,14 +155,17 @@ def output_set(folder: str | os.PathLike, *, create: bool = False) -> Iterator[O
         created = _make_folder(folder)
     elif not folder.is_dir():
         raise FileNotFoundError(2, "cannot write: the folder does not exist", str(folder))
+    staging: Path | None = None
     try:
-        staging = Path(tempfile.mkdtemp(dir=folder, prefix=STAGING_PREFIX,
-                                        suffix=STAGING_SUFFIX))
-    except OSError as exc:
-        _remove_created(created)
-        raise with_path(exc, folder) from exc
-    files = OutputSet(folder, staging)
-    try:
+        # an interrupt between making the staging folder and holding its name would leave it
+        # behind: hold SIGINT/SIGTERM until the name is kept (delivered inside the try below)
+        with _signals_held():
+            try:
+                staging = Path(tempfile.mkdtemp(dir=folder, prefix=STAGING_PREFIX,
+                                                suffix=STAGING_SUFFIX))
+            except OSError as exc:
+                raise with_path(exc, folder) from exc
+        files = OutputSet(folder, staging)
         try:
             yield files
         except OSError as exc:
@@ -171,7 +174,8 @@ def output_set(folder: str | os.PathLike, *, create: bool = False) -> Iterator[O
             _commit(files)
             shutil.rmtree(staging, ignore_errors=True)
     except BaseException:
-        shutil.rmtree(staging, ignore_errors=True)
+        if staging is not None:
+            shutil.rmtree(staging, ignore_errors=True)
         _remove_created(created)
         raise
 
