@@ -70,6 +70,7 @@ class Budget:
     provenance: dict[str, Any]
     source_input_power: np.ndarray = field(repr=False)
     loop_gain: np.ndarray = field(repr=False)
+    variant_labels: tuple[str, ...] | None = None
 
     # -- derived figures -------------------------------------------------------------------
 
@@ -177,9 +178,18 @@ class Budget:
 
     # -- tables ----------------------------------------------------------------------------
 
+    @property
+    def variants(self) -> int | None:
+        """Number of design variants along the first axis (None for a single design)."""
+        return None if self.variant_labels is None else len(self.variant_labels)
+
     def _axes_frame(self) -> dict[str, np.ndarray]:
         flat = {AXIS_COLUMNS[a]: np.broadcast_to(self.coords[a], self.shape).ravel() for a in AXES}
-        return {"point_id": np.arange(int(np.prod(self.shape))), **flat}
+        head: dict[str, np.ndarray] = {"point_id": np.arange(int(np.prod(self.shape)))}
+        if self.variant_labels is not None:
+            labels = np.asarray(self.variant_labels, dtype=object)
+            head["variant"] = labels[np.broadcast_to(self.coords["variant"], self.shape).ravel()]
+        return {**head, **flat}
 
     def point_table(self):
         """One row per operating point (SPEC §7)."""

@@ -24,6 +24,7 @@ from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
+from lossbudget.variants import Variants, stacked_design, take
 from lossbudget.waveforms import integral_extremes_pwl
 
 N_HARMONICS = 24
@@ -75,19 +76,31 @@ class _Diode:
     leakage: tuple[float, float, float, float] | None
 
 
+def _num(x):
+    """A float from a 0-d result; an array (one value per variant) stays an array."""
+    return float(x) if np.ndim(x) == 0 else np.asarray(x, dtype=float)
+
+
+def _text(x) -> str:
+    """A number for a note; the range where it differs between variants."""
+    if np.ndim(x) == 0:
+        return f"{float(x):g}"
+    return f"{float(np.min(x)):g}..{float(np.max(x)):g} (by variant)"
+
+
 def _fet(m: Mosfet, corner: Corner) -> _Fet:
     qgs2 = (
         m.qgs2.pick(corner)
         if m.qgs2 is not None
-        else float(
+        else _num(
             mos.gate_plateau_charge_qgs2(m.qgs.pick(corner), v_th=m.v_th, v_plateau=m.v_plateau)
         )
     )
     a = ae = None
     if m.qoss is not None:
-        a = float(mos.charge_coefficient_from_q(m.qoss.value.pick(corner), v_ref=m.qoss.at))
+        a = _num(mos.charge_coefficient_from_q(m.qoss.value.pick(corner), v_ref=m.qoss.at))
     if m.eoss is not None:
-        ae = float(mos.charge_coefficient_from_e(m.eoss.value.pick(corner), v_ref=m.eoss.at))
+        ae = _num(mos.charge_coefficient_from_e(m.eoss.value.pick(corner), v_ref=m.eoss.at))
         if a is None:
             a = ae
     bd = m.body_diode
@@ -122,7 +135,7 @@ def _diode(d: Diode, corner: Corner) -> _Diode:
         vf0_v=d.vf0.pick(corner),
         rd_t=d.rd.t,
         rd_v=d.rd.pick(corner),
-        a=float(mos.charge_coefficient_from_q(d.qc.value.pick(corner), v_ref=d.qc.at))
+        a=_num(mos.charge_coefficient_from_q(d.qc.value.pick(corner), v_ref=d.qc.at))
         if d.qc
         else None,
         qrr=(d.qrr.q.pick(corner), d.qrr.at_i, d.qrr.at) if d.qrr else None,
@@ -176,9 +189,9 @@ def _context(design: Design, corner: Corner) -> _Context:
                 "(toroid, drum core) and near an air gap; treat the AC copper loss as indicative"
             )
         if w.rac_rdc is not None:
-            delta1_ref = float(mag.dowell_delta_from_factor(w.rac_rdc, layers=layers))
+            delta1_ref = _num(mag.dowell_delta_from_factor(w.rac_rdc, layers=layers))
             notes.append(
-                f"copper_ac: Dowell's Δ1 back-solved from rac_rdc = {w.rac_rdc:g} at the "
+                f"copper_ac: Dowell's Δ1 back-solved from rac_rdc = {_text(w.rac_rdc)} at the "
                 "nominal fsw and 25 degC" + ("" if w.layers else ", layers = 1 assumed")
             )
     caps = design.capacitors
@@ -203,6 +216,37 @@ def _context(design: Design, corner: Corner) -> _Context:
         parts=parts,
         network=network,
         notes=notes,
+    )
+
+
+def _at_points(ctx: _Context, g: _Grid) -> _Context:
+    """The context with every per-variant array taken at the points' variants.
+
+    A single design's context holds no such arrays and is returned as it is. The thermal
+    network stays whole: its per-variant transfer resistances are taken by the coupled solve.
+    """
+    if g.variant is None:
+        return ctx
+    idx = g.variant
+    return _Context(
+        design=take(ctx.design, idx),
+        corner=ctx.corner,
+        sw=take(ctx.sw, idx),
+        rect=take(ctx.rect, idx),
+        sync=ctx.sync,
+        dcm_allowed=ctx.dcm_allowed,
+        l=take(ctx.l, idx),
+        dcr=take(ctx.dcr, idx),
+        r_pos={k: take(v, idx) for k, v in ctx.r_pos.items()},
+        caps=take(ctx.design.capacitors, idx),
+        cap_c=take(ctx.cap_c, idx),
+        cap_esr=take(ctx.cap_esr, idx),
+        delta1_ref=take(ctx.delta1_ref, idx),
+        layers=ctx.layers,
+        nodes=ctx.nodes,
+        parts=ctx.parts,
+        network=ctx.network,
+        notes=ctx.notes,
     )
 
 
@@ -255,9 +299,13 @@ class _Grid:
     load: np.ndarray
     ambient: np.ndarray
     fsw: np.ndarray
+    variant: np.ndarray | None = None
 
     def take(self, index) -> _Grid:
-        return _Grid(**{a: getattr(self, a)[index] for a in AXES})
+        return _Grid(
+            **{a: getattr(self, a)[index] for a in AXES},
+            variant=None if self.variant is None else self.variant[index],
+        )
 
 
 @dataclass(slots=True, kw_only=True)
@@ -320,8 +368,8 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
     dcm = st.dcm
     i_v = st.i_valley
     i_pk = st.i_pk
-    a_sw = sw.a or 0.0
-    a_op = rc.a or 0.0
+    a_sw = 0.0 if sw.a is None else sw.a
+    a_op = 0.0 if rc.a is None else rc.a
     ae_sw = sw.ae
     ae_op = rc.ae if ctx.sync else None
     q_node = mos.node_charge(v, a=a_sw) + mos.node_charge(v, a=a_op)
@@ -523,6 +571,7 @@ def _evaluate(
     tells the infeasible points, and returns that stage with the node powers a thermal
     evaluation (not full) at the same temperatures returns, which its first passes share.
     """
+    ctx = _at_points(ctx, g)
     d = ctx.design
     sw, rc = ctx.sw, ctx.rect
     shape = g.vin.shape
@@ -1021,6 +1070,18 @@ def solve(
 def _solve(design, *, vin, load, load_fraction, vout, ambient, fsw, corner, outer) -> Budget:
     if corner not in ("typ", "worst"):
         raise ValueError(f"corner: expected 'typ' or 'worst', got {corner!r}")
+    if isinstance(design, Variants):
+        return _solve_variants(
+            design,
+            vin=vin,
+            load=load,
+            load_fraction=load_fraction,
+            vout=vout,
+            ambient=ambient,
+            fsw=fsw,
+            corner=corner,
+            outer=outer,
+        )
     coords, shape = _axes(
         design,
         vin=vin,
@@ -1038,13 +1099,186 @@ def _solve(design, *, vin, load, load_fraction, vout, ambient, fsw, corner, oute
         vin=flat.vin, vout=np.abs(flat.vout), load=flat.load, ambient=flat.ambient, fsw=flat.fsw
     )
     bad_vout = (sign * np.asarray(coords["vout"]).ravel()) <= 0
-    n = flat.vin.size
     statuses_raw = _statuses(ctx)
-    pieces = [
+    pieces = _solve_points(ctx, flat, statuses_raw)
+    return _assemble_budget(ctx, coords, shape, pieces, statuses_raw, bad_vout, corner)
+
+
+def _solve_points(ctx: _Context, flat: _Grid, statuses_raw) -> list:
+    """The chunks of a flat point set, each one vectorised evaluation."""
+    n = flat.vin.size
+    return [
         _solve_chunk(ctx, flat.take(slice(s, min(s + CHUNK, n))), statuses_raw)
         for s in range(0, n, CHUNK)
     ]
-    return _assemble_budget(ctx, coords, shape, pieces, statuses_raw, bad_vout, corner)
+
+
+def _variant_axes(vs: Variants, sd: Design, m: int, *, vin, load, load_fraction, vout, ambient,
+                  fsw, outer):
+    """Axes of shape (m, *grid) for one group: the grid given, nominals per variant."""
+    coords, shape = _axes(
+        vs.base,
+        vin=vin,
+        load=load,
+        load_fraction=load_fraction,
+        vout=vout,
+        ambient=ambient,
+        fsw=fsw,
+        outer=outer,
+    )
+    full = (m, *shape)
+    lead = (m,) + (1,) * len(shape)
+    op = sd.operating
+    out = {a: np.broadcast_to(coords[a], full) for a in AXES}
+    nominal = {"vout": (vout, op.vout.nom), "ambient": (ambient, op.ambient.nom),
+               "fsw": (fsw, op.fsw.nom)}
+    for a, (given, nom) in nominal.items():
+        if given is None and np.ndim(nom):
+            out[a] = np.broadcast_to(np.reshape(nom, lead), full)
+    if load is None and np.ndim(op.iout_rated):
+        frac = np.asarray(coords["load"]) / vs.base.operating.iout_rated
+        out["load"] = frac * np.reshape(op.iout_rated, lead)
+    return out, full
+
+
+def _solve_variants(vs: Variants, *, vin, load, load_fraction, vout, ambient, fsw, corner,
+                    outer) -> Budget:
+    """Every variant × the grid as one flat point set per structure group.
+
+    Each point carries its variant's index; the stacked design holds the differing part
+    values as arrays over the group's variants, taken per point in the evaluation. A loop
+    runs over the structure groups only (parts whose optional data differ in kind), never
+    over the variants.
+    """
+    budgets = []
+    groups = vs.groups()
+    for members in groups:
+        sd = stacked_design(vs, members)
+        m = members.size
+        coords, full = _variant_axes(
+            vs,
+            sd,
+            m,
+            vin=vin,
+            load=load,
+            load_fraction=load_fraction,
+            vout=vout,
+            ambient=ambient,
+            fsw=fsw,
+            outer=outer,
+        )
+        ctx = _context(sd, corner)
+        npts = int(np.prod(full[1:], dtype=np.int64))
+        sign = -1.0 if sd.topology == "buck-boost" else 1.0
+        flat = _Grid(
+            vin=np.ascontiguousarray(coords["vin"]).ravel().astype(float),
+            vout=np.abs(np.ascontiguousarray(coords["vout"]).ravel().astype(float)),
+            load=np.ascontiguousarray(coords["load"]).ravel().astype(float),
+            ambient=np.ascontiguousarray(coords["ambient"]).ravel().astype(float),
+            fsw=np.ascontiguousarray(coords["fsw"]).ravel().astype(float),
+            variant=np.repeat(np.arange(m), npts),
+        )
+        bad_vout = (sign * np.asarray(coords["vout"]).ravel()) <= 0
+        statuses_raw = _statuses(ctx)
+        pieces = _solve_points(ctx, flat, statuses_raw)
+        b = _assemble_budget(ctx, coords, full, pieces, statuses_raw, bad_vout, corner)
+        budgets.append(b)
+    return _join_variants(vs, budgets, groups)
+
+
+def _join_variants(vs: Variants, budgets: list[Budget], groups: list[np.ndarray]) -> Budget:
+    """One budget over all variants from the budgets of the structure groups."""
+    n = vs.size
+    first = budgets[0]
+    full = (n, *first.shape[1:])
+    labels = tuple(str(x) for x in vs.labels)
+
+    def fill(get, keys, blank):
+        out = {}
+        for k in keys:
+            like = next(get(b)[k] for b in budgets if k in get(b))
+            arr = np.full(full, blank, dtype=np.asarray(like).dtype if blank is not None
+                          else object)
+            for b, members in zip(budgets, groups, strict=True):
+                if k in get(b):
+                    arr[members] = np.broadcast_to(get(b)[k], b.shape)
+            out[k] = arr
+        return out
+
+    def keys_of(get):
+        seen: dict = {}
+        for b in budgets:
+            seen.update(dict.fromkeys(get(b)))
+        return list(seen)
+
+    def one(get, blank):
+        return fill(lambda b: {"x": get(b)}, ["x"], blank)["x"]
+
+    coords = fill(lambda b: b.coords, AXES, np.nan)
+    coords["variant"] = np.broadcast_to(
+        np.arange(n).reshape((n,) + (1,) * (len(full) - 1)), full
+    )
+    losses = fill(lambda b: b.losses, keys_of(lambda b: b.losses), np.nan)
+    statuses = {}
+    for key in keys_of(lambda b: b.statuses):
+        kinds = {b.statuses[key].kind for b in budgets if key in b.statuses}
+        zr = np.full(full, "", dtype=object)
+        for b, members in zip(budgets, groups, strict=True):
+            st = b.statuses.get(key)
+            if st is None:
+                zr[members] = "not_applicable: not in this variant"
+            elif st.kind != "computed":
+                zr[members] = f"{st.kind}: {st.note}" if len(kinds) > 1 else ""
+            elif st.zero_reason is not None:
+                zr[members] = np.broadcast_to(st.zero_reason, b.shape)
+        if kinds == {"computed"} or len(kinds) > 1:
+            statuses[key] = MechanismStatus(kind="computed", zero_reason=zr)
+            if key not in losses:
+                losses[key] = np.where(one(lambda b: b.flagged, True), np.nan, 0.0)
+            else:
+                losses[key] = np.where(np.isnan(losses[key]) & ~one(lambda b: b.flagged, True),
+                                       0.0, losses[key])
+        else:
+            st = next(b.statuses[key] for b in budgets if key in b.statuses)
+            statuses[key] = MechanismStatus(kind=st.kind, note=st.note)
+    limits = {}
+    for node in keys_of(lambda b: b.temperature_limits):
+        arr = np.full(n, np.nan)
+        for b, members in zip(budgets, groups, strict=True):
+            if node in b.temperature_limits:
+                arr[members] = np.broadcast_to(b.temperature_limits[node], members.shape)
+        limits[node] = arr
+    flags = fill(lambda b: b.flags, keys_of(lambda b: b.flags), False)
+    prov = dict(first.provenance)
+    prov["variants"] = {
+        "count": n,
+        "structure_groups": len(groups),
+        "parts_file": vs.source,
+        "slots": {s: [a.name for a in alts] for s, alts in vs.slots.items()},
+        "varied": {k: sorted({float(x) for x in v}) for k, v in vs.values.items()},
+    }
+    prov["notes"] = sorted({note for b in budgets for note in b.provenance["notes"]})
+    return Budget(
+        design_name=first.design_name,
+        topology=first.topology,
+        coords=coords,
+        losses=losses,
+        statuses=statuses,
+        temperatures=fill(lambda b: b.temperatures, keys_of(lambda b: b.temperatures), np.nan),
+        temperature_limits=limits,
+        stresses=fill(lambda b: b.stresses, keys_of(lambda b: b.stresses), np.nan),
+        output_power=one(lambda b: b.output_power, np.nan),
+        duty=one(lambda b: b.duty, np.nan),
+        d2=one(lambda b: b.d2, np.nan),
+        dcm=one(lambda b: b.dcm, False),
+        vout_pp=one(lambda b: b.vout_pp, np.nan),
+        flags=flags,
+        reason=one(lambda b: b.reason, ""),
+        provenance=prov,
+        source_input_power=one(lambda b: b.source_input_power, np.nan),
+        loop_gain=one(lambda b: b.loop_gain, np.nan),
+        variant_labels=labels,
+    )
 
 
 @dataclass(slots=True, kw_only=True)
@@ -1074,7 +1308,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     # nodes whose temperature changes some loss: the semiconductors and the winding always,
     # a capacitor bank only where its ESR is given over temperature
     heated = [ctx.nodes.index(p) for p in ("switch", "rectifier", "inductor")] + [
-        ctx.nodes.index(c.name) for c in ctx.caps if len(c.esr.t) > 1
+        ctx.nodes.index(c.name) for c in ctx.caps if np.shape(c.esr.t)[-1] > 1
     ]
 
     def power_of(temps, index):
@@ -1089,6 +1323,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     not_conv = np.zeros(n, dtype=bool)
     gain = np.full(n, np.nan)
     if ok.size:
+        stack = ctx.network.transfer_resistance.ndim == 3
         sol = solve_coupled(
             power_of,
             ctx.network,
@@ -1096,6 +1331,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
             tol=THERMAL_TOL,
             ceiling=CEILING,
             heated=heated,
+            transfer=ctx.network.transfer_resistance[g.variant[ok]] if stack else None,
         )
         temps[ok] = sol.temperatures
         runaway[ok] = sol.runaway

@@ -49,8 +49,8 @@ from lossbudget.units import format_quantity, glossary_dimension, parse_quantity
 DEFAULT_BUDGET = 10_000
 SLOTS = ("switch", "rectifier", "inductor")
 PART_EXTRA = ("name", "cost", "area")
-# whole numbers that change the structure of the computation (not mere factors)
-STRUCTURAL_INTS = frozenset({"layers"})
+# fields that change the structure of the computation (not mere factors): equal within a group
+STRUCTURAL = frozenset({"layers", "c_bias", "includes"})
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -486,12 +486,13 @@ def _is_number(x) -> bool:
 
 def structure_key(obj, name: str = ""):
     """A hashable description of an object's layout: what must be equal to stack it."""
+    if name in STRUCTURAL:
+        return (name, obj)
     if dataclasses.is_dataclass(obj):
-        return (type(obj).__name__,) + tuple(
-            structure_key(getattr(obj, f.name), f.name) for f in dataclasses.fields(obj)
-        )
+        fields = dataclasses.fields(obj)
+        return (type(obj).__name__, *(structure_key(getattr(obj, f.name), f.name) for f in fields))
     if _is_number(obj):
-        return obj if name in STRUCTURAL_INTS else "#"
+        return "#"
     if isinstance(obj, tuple) and obj and all(_is_number(v) for v in obj):
         return ("#", len(obj))
     if isinstance(obj, tuple):
@@ -499,28 +500,32 @@ def structure_key(obj, name: str = ""):
     return obj
 
 
-def stack_objects(objs: list, index: np.ndarray, name: str = ""):
+def stack_objects(objs: list, index: np.ndarray, name: str = "", *, curve: bool = False):
     """One object of the common layout, each differing number an array over ``index``.
 
     ``objs`` share one layout (:func:`structure_key`); ``index`` picks, per variant, which
-    object it takes. Numbers equal in every object stay scalars; a tuple of numbers (curve
-    points) that differs becomes an array of shape (variants, points).
+    object it takes. Numbers equal in every object stay scalars; the points of a curve
+    (:class:`~lossbudget.design.Curve`) that differ become an array of shape (variants,
+    points); any other tuple of numbers (``ct``, ``fit_range``) a tuple of arrays.
     """
     first = objs[0]
     if all(o is first for o in objs) or _equal(objs):
         return first
     if dataclasses.is_dataclass(first):
+        is_curve = isinstance(first, Curve)
         return dataclasses.replace(
             first,
             **{
-                f.name: stack_objects([getattr(o, f.name) for o in objs], index, f.name)
+                f.name: stack_objects(
+                    [getattr(o, f.name) for o in objs], index, f.name, curve=is_curve
+                )
                 for f in dataclasses.fields(first)
                 if f.init
             },
         )
     if _is_number(first):
         return np.asarray(objs, dtype=float)[index]
-    if isinstance(first, tuple) and all(_is_number(v) for v in first):
+    if curve and isinstance(first, tuple) and all(_is_number(v) for v in first):
         return np.asarray(objs, dtype=float)[index]
     if isinstance(first, tuple):
         return tuple(stack_objects(list(col), index) for col in zip(*objs, strict=True))
