@@ -273,6 +273,26 @@ def i_sat_at(t, *, points_t, points_i):
     t = np.asarray(t, dtype=float)
     pt = np.asarray(points_t, dtype=float)
     pi = np.asarray(points_i, dtype=float)
+    if pt.ndim > 1 or pi.ndim > 1:
+        # one table per point (design variants): the same rule, the points on the last axis
+        if pt.shape[-1] == 1:
+            return np.broadcast_to(np.maximum(pi[..., 0], 0.0), np.broadcast_shapes(
+                t.shape, pi.shape[:-1])).copy()
+        slope = (pi[..., -1] - pi[..., -2]) / (pt[..., -1] - pt[..., -2])
+        below = t < pt[..., 0]
+        seg = np.clip(np.sum(t[..., np.newaxis] >= pt, axis=-1) - 1, 0, pt.shape[-1] - 2)
+        shape = np.broadcast_shapes(t.shape, pt.shape[:-1], pi.shape[:-1])
+
+        def at(tab, k):
+            full = np.broadcast_to(tab, (*shape, tab.shape[-1]))
+            return np.take_along_axis(full, np.broadcast_to(k, shape)[..., np.newaxis],
+                                      axis=-1)[..., 0]
+
+        slopes = np.diff(pi, axis=-1) / np.diff(pt, axis=-1)
+        inner = at(pi, seg) + at(slopes, seg) * (t - at(pt, seg))
+        hot = pi[..., -1] + slope * (t - pt[..., -1])
+        value = np.where(below, pi[..., 0], np.where(t > pt[..., -1], hot, inner))
+        return np.maximum(value, 0.0)
     if pt.size == 1:
         return np.full(t.shape, pi[0])
     slope = (pi[-1] - pi[-2]) / (pt[-1] - pt[-2])
@@ -387,7 +407,18 @@ def _key(check: _Check, value: np.ndarray, absolute: np.ndarray) -> np.ndarray:
 
 
 def _full(b: Budget, x: float) -> np.ndarray:
+    if np.ndim(x):  # one value per design variant, the budget's first axis
+        return np.where(b.flagged, np.nan, _lead(x, b))
     return np.where(b.flagged, np.nan, float(x))
+
+
+def _lead(x, b: Budget, trailing: int = 0) -> np.ndarray:
+    """Per-variant values shaped to broadcast along a variant budget's first axis."""
+    x = np.asarray(x, dtype=float)
+    if x.ndim == trailing:
+        return x
+    tail = x.shape[x.ndim - trailing:] if trailing else ()
+    return x.reshape((x.shape[0],) + (1,) * (len(b.shape) - 1) + tail)
 
 
 def _q(x: float, dim: str) -> str:
@@ -431,11 +462,12 @@ def _checks(design: Design, corner: Corner) -> tuple[list[_Check], list[tuple[st
         pts_t, pts_i = ind.i_sat.t, ind.i_sat.pick(corner)
 
         def i_sat(b: Budget) -> np.ndarray:
-            return i_sat_at(b.temperature("inductor"), points_t=pts_t, points_i=pts_i)
+            return i_sat_at(b.temperature("inductor"), points_t=_lead(pts_t, b, 1),
+                            points_i=_lead(pts_i, b, 1))
 
         def sat_note(b: Budget, k: int, what: str) -> str:
             t = float(b.temperature("inductor").ravel()[k])
-            extra = ", extrapolated above the hottest point" if t > pts_t[-1] else ""
+            extra = ", extrapolated above the hottest point" if t > np.max(pts_t) else ""
             return (f"{what} against i_sat at the inductor's {_q(t, 'temperature')} "
                     f"({corner}-case i_sat points, interpolated{extra})")
 
@@ -515,7 +547,8 @@ def _checks(design: Design, corner: Corner) -> tuple[list[_Check], list[tuple[st
             checks.append(_Check(
                 part=cap.name, quantity="life", unit="h", kind=None, lower_is_worse=True,
                 measure=lambda b, name=cap.name, life=life: (
-                    electrolytic_life_10k(b.temperature(name), rated=life.rated, at=life.at),
+                    electrolytic_life_10k(b.temperature(name), rated=_lead(life.rated, b),
+                                          at=_lead(life.at, b)),
                     _full(b, life.required)),
                 note=life_note,
             ))
@@ -752,6 +785,9 @@ def check_limits(design: Design, *, derating: str | None = None,
     -------
     LimitReport
         A row per part and limit, the worst status, the cautions and the grid described.
+        Given a :class:`~lossbudget.variants.Variants` instead of a design: a
+        :class:`VariantLimits`, every variant checked on the envelope grid in one vectorised
+        sweep (without the local refinement), with its worst status, limit and margin.
 
     Notes
     -----
@@ -764,6 +800,10 @@ def check_limits(design: Design, *, derating: str | None = None,
     """
     if corner not in ("typ", "worst"):
         raise ValueError(f"corner: expected 'typ' or 'worst', got {corner!r}")
+    from lossbudget.variants import Variants
+
+    if isinstance(design, Variants):
+        return _variant_limits(design, derating=derating, corner=corner)
     label, margins = _margins_for(design, derating)
     checks, missing = _checks(design, corner)
     axes = _envelope(design)
@@ -847,5 +887,135 @@ def check_limits(design: Design, *, derating: str | None = None,
     )
 
 
-__all__ = ["LimitReport", "LimitRow", "Margin", "check_limits", "derating_profiles",
-           "electrolytic_life_10k", "i_sat_at"]
+# --------------------------------------------------------------------------------------------
+# design variants: the envelope check of every variant in one vectorised sweep
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True, kw_only=True, eq=False)
+class VariantLimits:
+    """The envelope check of every design variant: arrays over the variants.
+
+    ``table`` holds one row per variant and limit (``variant``, ``part``, ``quantity``,
+    ``worst``, ``design_limit``, ``absolute_limit``, ``margin``, ``margin_unit``, ``headroom``,
+    ``status``). ``headroom`` puts the margins on one scale: the fraction of the design limit
+    left (voltages, currents, flux, life), and for temperatures the fraction of the allowed
+    rise above the hottest ambient left, (T_design − T_worst)/(T_design − T_ambient,max).
+    Per variant: ``worst_status``, the ``worst_limit`` (part.quantity of the lowest headroom
+    among the rows of the worst status, or the stage's runaway or regulation) and its
+    ``worst_margin`` and ``worst_headroom``.
+    """
+
+    labels: tuple[str, ...]
+    derating: str
+    corner: Corner
+    worst_status: np.ndarray
+    worst_limit: np.ndarray
+    worst_margin: np.ndarray
+    worst_margin_unit: np.ndarray
+    worst_headroom: np.ndarray
+    table: Any
+    grid: str
+    cautions: tuple[str, ...] = CAUTIONS
+
+
+def _variant_limits(variants, *, derating: str | None, corner: Corner) -> VariantLimits:
+    """Envelope check of design variants: one sweep over variants × the envelope grid."""
+    import pandas as pd
+
+    from lossbudget.variants import stacked_design, subset
+
+    base = variants.base
+    label, margins = _margins_for(base, derating)
+    axes = _envelope(base)
+    n = variants.size
+    t_amb = float(axes["ambient"].max())
+    labels = tuple(str(x) for x in variants.labels)
+    records = []
+    order = np.zeros(n, dtype=int)  # status index of the worst row
+    head = np.full(n, np.inf)
+    w_limit = np.full(n, "", dtype=object)
+    w_margin = np.full(n, np.nan)
+    w_unit = np.full(n, "", dtype=object)
+    for members in variants.groups():  # structure groups, each one vectorised sweep
+        sub = subset(variants, members)
+        sd = stacked_design(sub, np.arange(members.size))
+        b = sweep(sub, corner=corner, **axes)
+        m = members.size
+        checks, _ = _checks(sd, corner)
+        rows = []
+        for c in checks:
+            value, absolute = c.measure(b)
+            value = np.broadcast_to(value, b.shape).reshape(m, -1)
+            absolute = np.broadcast_to(absolute, b.shape).reshape(m, -1)
+            key = _key(c, value, absolute)
+            finite = np.isfinite(key)
+            k = np.argmax(np.where(finite, key, -np.inf), axis=1)
+            pick = np.arange(m)
+            worst = np.where(finite.any(axis=1), value[pick, k], np.nan)
+            absl = np.where(finite.any(axis=1), absolute[pick, k], np.nan)
+            if c.kind is None:
+                design_limit = absl
+            else:
+                design_limit = margins[c.kind, c.quantity].design_limit(absl)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                if c.unit == "degC":
+                    margin, unit = design_limit - worst, "K"
+                    headroom = margin / (design_limit - t_amb)
+                elif c.lower_is_worse:
+                    margin, unit = (worst - design_limit) / design_limit, "fraction"
+                    headroom = margin
+                else:
+                    margin, unit = (design_limit - worst) / design_limit, "fraction"
+                    headroom = margin
+                if c.lower_is_worse:
+                    status = np.where(worst < absl, 2, np.where(worst < design_limit, 1, 0))
+                else:
+                    status = np.where(worst > absl, 2, np.where(worst > design_limit, 1, 0))
+            status = np.where(np.isfinite(worst), status, 2)
+            rows.append((f"{c.part}.{c.quantity}", c, worst, design_limit, absl, margin, unit,
+                         headroom, status))
+        bad = {f: b.flags[f].reshape(m, -1).any(axis=1) for f in b.flags}
+        thermal = bad["runaway"] | bad["not_converged"]
+        regulation = bad["infeasible"]
+        nan = np.full(m, np.nan)
+        rows.append(("stage.thermal", None, nan, nan, nan, nan, "", np.where(thermal, -np.inf,
+                                                                              np.nan),
+                     np.where(thermal, 2, 0)))
+        rows.append(("stage.regulation", None, nan, nan, nan, nan, "",
+                     np.where(regulation, -np.inf, np.nan), np.where(regulation, 1, 0)))
+        for name, c, worst, dl, absl, margin, unit, headroom, status in rows:
+            part, qty = name.split(".", 1)
+            records.append(pd.DataFrame({
+                "variant_id": members, "variant": np.asarray(labels, dtype=object)[members],
+                "part": part, "quantity": qty, "unit": c.unit if c is not None else "",
+                "worst": worst, "design_limit": dl, "absolute_limit": absl, "margin": margin,
+                "margin_unit": unit, "headroom": headroom,
+                "status": np.asarray(STATUS_ORDER, dtype=object)[status],
+            }))
+            g_order, g_head = order[members], head[members]
+            h = np.where(np.isnan(headroom), np.inf, headroom)
+            better = (status > g_order) | ((status == g_order) & (h < g_head))
+            take = better & ((status > 0) | np.isfinite(h))
+            idx = members[take]
+            order[idx] = status[take]
+            head[idx] = h[take]
+            w_limit[idx] = name
+            w_margin[idx] = margin[take]
+            w_unit[idx] = unit
+    table = pd.concat(records, ignore_index=True).sort_values(
+        ["variant_id"], kind="stable").reset_index(drop=True)
+    sizes = " × ".join(f"{axes[a].size} {a}" for a in AXES)
+    text = (f"envelope grid {sizes} per variant at the {corner}-case part values, one "
+            "vectorised sweep over the variants; each limit's worst point is the worst grid "
+            "point (the single-design check's local refinement is not run per variant)")
+    return VariantLimits(
+        labels=labels, derating=label, corner=corner,
+        worst_status=np.asarray(STATUS_ORDER, dtype=object)[order],
+        worst_limit=w_limit, worst_margin=w_margin, worst_margin_unit=w_unit,
+        worst_headroom=np.where(np.isfinite(head), head, np.nan), table=table, grid=text,
+    )
+
+
+__all__ = ["LimitReport", "LimitRow", "Margin", "VariantLimits", "check_limits",
+           "derating_profiles", "electrolytic_life_10k", "i_sat_at"]

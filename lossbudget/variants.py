@@ -539,6 +539,17 @@ def _equal(objs) -> bool:
         return False
 
 
+def subset(v: Variants, members: np.ndarray) -> Variants:
+    """The variants ``members`` of ``v``, in that order."""
+    return Variants(
+        base=v.base,
+        slots=v.slots,
+        index={s: i[members] for s, i in v.index.items()},
+        values={k: x[members] for k, x in v.values.items()},
+        source=v.source,
+    )
+
+
 def stacked_design(v: Variants, members: np.ndarray) -> Design:
     """The base design with each slot and varied key an array over ``members`` (one group)."""
     d = v.base
