@@ -124,3 +124,7 @@ main.add_command(demo_command)
 from lossbudget.commands.exporting import export  # noqa: E402
 
 main.add_command(export)
+
+from lossbudget.commands.comparing import compare_command  # noqa: E402
+
+main.add_command(compare_command)

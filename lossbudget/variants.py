@@ -78,6 +78,7 @@ class Variants:
     index: dict[str, np.ndarray]
     values: dict[str, np.ndarray]
     source: str = "<dict>"
+    shape: tuple[int, ...] = ()
 
     def __len__(self) -> int:
         return int(self.size)
@@ -92,13 +93,21 @@ class Variants:
     @property
     def labels(self) -> np.ndarray:
         """A label per variant: the part names and the varied values."""
+        return self.labels_without()
+
+    def labels_without(self, *keys: str) -> np.ndarray:
+        """Labels leaving out some slots or varied keys (a candidate across a sweep)."""
         n = self.size
         out = np.full(n, "", dtype=object)
         pieces = []
         for slot, alts in self.slots.items():
+            if slot in keys:
+                continue
             names = np.array([a.name for a in alts], dtype=object)
             pieces.append(names[self.index[slot]])
         for key, vals in self.values.items():
+            if key in keys:
+                continue
             dim = glossary_dimension(_glossary_key(key))
             uniq, inv = np.unique(vals, return_inverse=True)
             text = np.array(
@@ -220,7 +229,8 @@ def variants(
     flat = [g.ravel() for g in grids]
     index = {slot: flat[k] for k, slot in enumerate(slots)}
     vals = {key: values[key][flat[len(slots) + k]] for k, key in enumerate(values)}
-    return Variants(base=base, slots=slots, index=index, values=vals, source=source)
+    return Variants(base=base, slots=slots, index=index, values=vals, source=source,
+                    shape=tuple(sizes))
 
 
 def read_parts(base: Design, parts) -> tuple[str, dict[str, tuple[Alternative, ...]]]:
