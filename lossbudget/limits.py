@@ -928,6 +928,10 @@ def _variant_limits(variants, *, derating: str | None, corner: Corner) -> Varian
     base = variants.base
     label, margins = _margins_for(base, derating)
     axes = _envelope(base)
+    per_variant_fsw = "operating.fsw" in variants.values
+    if per_variant_fsw:
+        # each variant at its own switching frequency (its nominal)
+        axes = {a: x for a, x in axes.items() if a != "fsw"}
     n = variants.size
     t_amb = float(axes["ambient"].max())
     labels = tuple(str(x) for x in variants.labels)
@@ -1005,7 +1009,9 @@ def _variant_limits(variants, *, derating: str | None, corner: Corner) -> Varian
             w_unit[idx] = unit
     table = pd.concat(records, ignore_index=True).sort_values(
         ["variant_id"], kind="stable").reset_index(drop=True)
-    sizes = " × ".join(f"{axes[a].size} {a}" for a in AXES)
+    sizes = " × ".join(f"{axes[a].size} {a}" for a in AXES if a in axes)
+    if per_variant_fsw:
+        sizes += " at each variant's own fsw"
     text = (f"envelope grid {sizes} per variant at the {corner}-case part values, one "
             "vectorised sweep over the variants; each limit's worst point is the worst grid "
             "point (the single-design check's local refinement is not run per variant)")

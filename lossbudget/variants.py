@@ -409,6 +409,12 @@ def _vary_values(base: Design, key, raw, problems) -> np.ndarray | None:
     if not isinstance(key, str) or not key:
         problems.append(f"vary: expected a key path such as 'inductor.l', got {key!r}")
         return None
+    if key.startswith("operating.") and key != "operating.fsw":
+        problems.append(
+            f"{where}: the operating envelope is the design's own; vary the parts, their "
+            "keys and operating.fsw"
+        )
+        return None
     try:
         dim = glossary_dimension(_glossary_key(key))
         current = _resolve(base, key)

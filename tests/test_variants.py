@@ -257,6 +257,7 @@ def test_bad_parts_toml_file_names_the_file(tmp_path):
         ({"inductor.l": []}, r"^vary: inductor\.l: expected at least one value$"),
         ({"design.name": ["x"]}, r"^vary: design\.name: not a key of the design"),
         ({"capacitor.cx.c": ["1 uF"]}, r"no capacitor bank 'cx'"),
+        ({"operating.vout": ["30 V"]}, r"^vary: operating\.vout: the operating envelope is"),
     ],
 )
 def test_bad_vary_entries(vary, expected):
