@@ -1,8 +1,9 @@
 """lossbudget: efficiency and thermal loss budgets for switched-mode DC-DC converters.
 
 Public API: :func:`load_design`, :func:`solve`, :func:`sweep`, :func:`check_limits`,
-:func:`write_workbook`, :class:`DesignError`. ``import lossbudget`` loads the engine with numpy
-only; scipy, pandas, matplotlib and openpyxl load when a function needs them.
+:func:`write_workbook`, :func:`variants` (design variants: parts files, varied keys),
+:func:`compare` (ranking the variants), :class:`DesignError`. ``import lossbudget`` loads the
+engine with numpy only; scipy, pandas, matplotlib and openpyxl load when a function needs them.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ __version__ = "0.1.0"
 from lossbudget.budget import Budget
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
+from lossbudget.factorial import Variants, variants
 from lossbudget.solver import solve
 from lossbudget.sweep import sweep
 
@@ -21,6 +23,7 @@ _LAZY = {
     "check_limits": ("lossbudget.limits", "check_limits"),
     "LimitReport": ("lossbudget.limits", "LimitReport"),
     "write_workbook": ("lossbudget.output.workbook", "write_workbook"),
+    "compare": ("lossbudget.ranking", "compare"),
 }
 
 
@@ -37,9 +40,11 @@ __all__ = [
     "Budget",
     "Design",
     "DesignError",
+    "Variants",
     "__version__",
     "load_design",
     "solve",
     "sweep",
+    "variants",
     *_LAZY,
 ]

@@ -785,7 +785,7 @@ def check_limits(design: Design, *, derating: str | None = None,
     -------
     LimitReport
         A row per part and limit, the worst status, the cautions and the grid described.
-        Given a :class:`~lossbudget.variants.Variants` instead of a design: a
+        Given a :class:`~lossbudget.factorial.Variants` instead of a design: a
         :class:`VariantLimits`, every variant checked on the envelope grid in one vectorised
         sweep (without the local refinement), with its worst status, limit and margin.
 
@@ -800,7 +800,7 @@ def check_limits(design: Design, *, derating: str | None = None,
     """
     if corner not in ("typ", "worst"):
         raise ValueError(f"corner: expected 'typ' or 'worst', got {corner!r}")
-    from lossbudget.variants import Variants
+    from lossbudget.factorial import Variants
 
     if isinstance(design, Variants):
         return _variant_limits(design, derating=derating, corner=corner)
@@ -923,7 +923,7 @@ def _variant_limits(variants, *, derating: str | None, corner: Corner) -> Varian
     """Envelope check of design variants: one sweep over variants × the envelope grid."""
     import pandas as pd
 
-    from lossbudget.variants import stacked_design, subset
+    from lossbudget.factorial import stacked_design, subset
 
     base = variants.base
     label, margins = _margins_for(base, derating)

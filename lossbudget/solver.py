@@ -19,12 +19,12 @@ import numpy as np
 from lossbudget.budget import AXES, Budget, MechanismStatus
 from lossbudget.design import Corner, Design, Diode, Mosfet
 from lossbudget.errors import DesignError
+from lossbudget.factorial import Variants, stacked_design, take
 from lossbudget.losses import diode as dio
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
-from lossbudget.variants import Variants, stacked_design, take
 from lossbudget.waveforms import integral_extremes_pwl
 
 N_HARMONICS = 24

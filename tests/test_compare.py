@@ -9,9 +9,9 @@ import pytest
 from click.testing import CliRunner
 
 import lossbudget as lb
-from lossbudget import variants as vm
+from lossbudget import factorial as vm
 from lossbudget.cli import main
-from lossbudget.compare import compare, optimum_frequency, pareto_front
+from lossbudget.ranking import compare, optimum_frequency, pareto_front
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_inputs"
 GROW = SAMPLES / "grow_light_led_boost.toml"

@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 
 import lossbudget as lb
-from lossbudget import variants as vm
+from lossbudget import factorial as vm
 from lossbudget.losses.diode import linear_in_temperature
 from lossbudget.losses.mosfet import rds_on_at
 from lossbudget.thermal import build_network

@@ -21,8 +21,8 @@ CURVE_POINTS = 40
 def parse_vary(texts: tuple[str, ...]) -> dict[str, np.ndarray]:
     """``KEY=START:STOP:COUNT`` options as key → evenly spaced values (SI)."""
     from lossbudget.commands.mapping import parse_range
+    from lossbudget.factorial import _glossary_key
     from lossbudget.units import glossary_dimension
-    from lossbudget.variants import _glossary_key
 
     out: dict[str, np.ndarray] = {}
     for text in texts:
@@ -136,8 +136,8 @@ def compare_command(design: Path, parts: Path | None, vary: tuple[str, ...], obj
     and marked when on the Pareto front of loss, cost and area. With --out: candidates.xlsx,
     pareto, efficiency of the best five and, when operating.fsw varies, loss against fsw.
     """
-    from lossbudget.compare import compare, optimum_frequency
-    from lossbudget.variants import variants as make_variants
+    from lossbudget.factorial import variants as make_variants
+    from lossbudget.ranking import compare, optimum_frequency
 
     if parts is None and not vary:
         raise BadInput("compare: give --parts PARTS.toml, --vary KEY=START:STOP:COUNT, or both")
@@ -189,6 +189,7 @@ def _candidates(vs) -> list[tuple[str, np.ndarray]]:
 
 
 def _write_outputs(vs, frame, optimum, *, out: Path, fmt: str, against: str) -> list[Path]:
+    from lossbudget.factorial import subset
     from lossbudget.output.candidates import (
         efficiency_figure,
         frequency_figure,
@@ -198,7 +199,6 @@ def _write_outputs(vs, frame, optimum, *, out: Path, fmt: str, against: str) -> 
     )
     from lossbudget.output.files import atomic_paths
     from lossbudget.solver import solve
-    from lossbudget.variants import subset
 
     d = vs.base
     best = frame["variant_id"].to_numpy()[:BEST_CURVES]

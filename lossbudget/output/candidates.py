@@ -1,7 +1,7 @@
 """Figures and workbook of a comparison of design variants (``lossbudget compare``).
 
 Each ``*_figure`` function returns a matplotlib :class:`~matplotlib.figure.Figure` (Agg canvas,
-no pyplot state) from the DataFrame of :func:`lossbudget.compare.compare` and, for the curves,
+no pyplot state) from the DataFrame of :func:`lossbudget.ranking.compare` and, for the curves,
 a budget over variants × load; :func:`write_candidates_workbook` writes the candidates sheet.
 Saving is the caller's: the command writes every file of a comparison as one atomic set
 (:func:`lossbudget.output.files.atomic_paths`). Colours and markers follow the map plots

@@ -1,6 +1,6 @@
 """Ranking design variants: weighted efficiency, losses, limits, cost, area, the Pareto front.
 
-:func:`compare` solves every variant of a :class:`~lossbudget.variants.Variants` at the load
+:func:`compare` solves every variant of a :class:`~lossbudget.factorial.Variants` at the load
 points of the weightings and at rated load over the input range (one vectorised solve over
 variants × points), checks every variant's limits over the envelope at worst-case part values
 (one vectorised sweep, :func:`lossbudget.limits.check_limits`), and returns one row per
@@ -22,9 +22,9 @@ from typing import Literal
 import numpy as np
 
 from lossbudget.budget import Budget
+from lossbudget.factorial import Variants
 from lossbudget.solver import solve
 from lossbudget.sweep import WEIGHTINGS
-from lossbudget.variants import Variants
 
 Objective = Literal["european", "cec", "mean_25_100", "full_load"]
 OBJECTIVES: tuple[str, ...] = ("european", "cec", "mean_25_100", "full_load")
@@ -40,7 +40,7 @@ def compare(
     Parameters
     ----------
     variants : Variants
-        From :func:`lossbudget.variants.variants`.
+        From :func:`lossbudget.factorial.variants`.
     objective : {"european", "cec", "mean_25_100", "full_load"}
         What ranks the variants: a weighted efficiency at nominal input (higher is better), or
         the loss at rated load and nominal input (lower is better).
