@@ -41,11 +41,14 @@ class MechanismStatus:
     ``kind`` is ``computed``, ``not_applicable`` or ``not_modelled``; ``note`` says why (the
     key that would enable a mechanism not modelled). ``zero_reason`` holds, per point, why a
     computed mechanism is zero by physics there ("" where it is not zero by physics).
+    ``by_point`` serves design variants whose treatments differ: per point, the status text
+    where the mechanism is not computed in that point's variant ("" where it is computed).
     """
 
     kind: str
     note: str = ""
     zero_reason: np.ndarray | None = None
+    by_point: np.ndarray | None = None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -158,7 +161,10 @@ class Budget:
         if st.zero_reason is not None:
             zr = np.broadcast_to(st.zero_reason, self.shape)
             out = np.where(zr != "", "zero: " + zr.astype(str).astype(object), out)
-        return np.where(self.flagged, "flagged", out)
+        out = np.where(self.flagged, "flagged", out)
+        if st.by_point is not None:
+            out = np.where(st.by_point != "", st.by_point, out)
+        return out
 
     def temperature(self, node: str) -> np.ndarray:
         """Temperature of a thermal node. [degC]"""

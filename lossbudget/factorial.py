@@ -51,6 +51,8 @@ SLOTS = ("switch", "rectifier", "inductor")
 PART_EXTRA = ("name", "cost", "area")
 # fields that change the structure of the computation (not mere factors): equal within a group
 STRUCTURAL = frozenset({"layers", "c_bias", "includes"})
+# fields the engine only records (the datasheet's test conditions): never split a group
+RECORDED = frozenset({"rds_on_v_gs"})
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -504,6 +506,8 @@ def structure_key(obj, name: str = ""):
     """A hashable description of an object's layout: what must be equal to stack it."""
     if name in STRUCTURAL:
         return (name, obj)
+    if name in RECORDED:
+        return name
     if dataclasses.is_dataclass(obj):
         fields = dataclasses.fields(obj)
         return (type(obj).__name__, *(structure_key(getattr(obj, f.name), f.name) for f in fields))
@@ -525,7 +529,7 @@ def stack_objects(objs: list, index: np.ndarray, name: str = "", *, curve: bool 
     points); any other tuple of numbers (``ct``, ``fit_range``) a tuple of arrays.
     """
     first = objs[0]
-    if all(o is first for o in objs) or _equal(objs):
+    if all(o is first for o in objs) or _equal(objs) or name in RECORDED:
         return first
     if dataclasses.is_dataclass(first):
         is_curve = isinstance(first, Curve)

@@ -1221,18 +1221,26 @@ def _join_variants(vs: Variants, budgets: list[Budget], groups: list[np.ndarray]
     losses = fill(lambda b: b.losses, keys_of(lambda b: b.losses), np.nan)
     statuses = {}
     for key in keys_of(lambda b: b.statuses):
-        kinds = {b.statuses[key].kind for b in budgets if key in b.statuses}
+        treat = {
+            (b.statuses[key].kind, b.statuses[key].note if b.statuses[key].kind != "computed"
+             else "")
+            for b in budgets if key in b.statuses
+        }
+        kinds = {k for k, _ in treat}
+        mixed = len(treat) > 1 or any(key not in b.statuses for b in budgets)
         zr = np.full(full, "", dtype=object)
+        by_point = np.full(full, "", dtype=object) if mixed else None
         for b, members in zip(budgets, groups, strict=True):
             st = b.statuses.get(key)
             if st is None:
-                zr[members] = "not_applicable: not in this variant"
+                by_point[members] = "not_applicable: not in this variant's design"
             elif st.kind != "computed":
-                zr[members] = f"{st.kind}: {st.note}" if len(kinds) > 1 else ""
+                if mixed:
+                    by_point[members] = f"{st.kind}: {st.note}" if st.note else st.kind
             elif st.zero_reason is not None:
                 zr[members] = np.broadcast_to(st.zero_reason, b.shape)
-        if kinds == {"computed"} or len(kinds) > 1:
-            statuses[key] = MechanismStatus(kind="computed", zero_reason=zr)
+        if "computed" in kinds or mixed:
+            statuses[key] = MechanismStatus(kind="computed", zero_reason=zr, by_point=by_point)
             if key not in losses:
                 losses[key] = np.where(one(lambda b: b.flagged, True), np.nan, 0.0)
             else:

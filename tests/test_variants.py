@@ -310,3 +310,31 @@ def test_curves_with_one_table_per_point_match_numpy_interp():
         for k in range(3)
     ]
     np.testing.assert_allclose(r, want_r, rtol=1e-12)
+
+
+def test_variants_whose_mechanisms_differ_in_treatment_report_each_their_own():
+    # One diode without junction charge and leakage data: its variant's recovery and leakage
+    # are "not modelled" where the others compute them; each variant's statuses and numbers
+    # must read as its own design's.
+    raw = _raw(GROW_PARTS)
+    bare = copy.deepcopy(raw["rectifier"][1])
+    bare["name"] = "D-C without charge data"
+    del bare["qc"], bare["leakage"]
+    parts = {"switch": raw["switch"][:1], "rectifier": [*raw["rectifier"], bare]}
+    v = vm.variants(GROW, parts=parts)
+    assert [g.size for g in v.groups()] == [2, 1]
+    b = lb.sweep(v, vin=[10.0, 14.0], load_fraction=[0.05, 1.0])
+    for i in range(len(v)):
+        _assert_same_budget(b, i, lb.sweep(v.design(i), vin=[10.0, 14.0],
+                                           load_fraction=[0.05, 1.0]))
+    assert b.status("rectifier", "leakage")[2, 0, 0] == "not_modelled: rectifier.leakage"
+    assert b.status("rectifier", "leakage")[0, 0, 0] == "computed"
+
+
+def test_recorded_test_conditions_do_not_split_groups():
+    # rds_on's v_gs (the datasheet's gate voltage) is recorded, never used by the solve
+    raw = _raw(GROW_PARTS)
+    a, b = copy.deepcopy(raw["switch"][0]), copy.deepcopy(raw["switch"][1])
+    a["rds_on"][0]["v_gs"] = "10 V"
+    v = vm.variants(GROW, parts={"switch": [a, b]})
+    assert len(v.groups()) == 1
