@@ -1018,8 +1018,10 @@ def solve(
 
     Parameters
     ----------
-    design : Design
-        A design from :func:`lossbudget.load_design`.
+    design : Design or Variants
+        A design from :func:`lossbudget.load_design`, or design variants from
+        :func:`lossbudget.variants`: then every variant is solved over the same axes in one
+        vectorised solve, and every array of the budget gains a leading variant axis.
     vin : array_like
         Input voltage. [V]
     load : array_like, optional
@@ -1039,7 +1041,9 @@ def solve(
     Returns
     -------
     Budget
-        Losses, temperatures, stresses, flags over the broadcast grid.
+        Losses, temperatures, stresses, flags over the broadcast grid; for variants of shape
+        (variants, *grid), ``variant_labels`` naming them. Omitted axes take each variant's
+        own nominal (a varied ``operating.fsw``).
 
     Notes
     -----
