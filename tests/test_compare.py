@@ -15,7 +15,7 @@ from lossbudget.ranking import compare, optimum_frequency, pareto_front
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_inputs"
 GROW = SAMPLES / "grow_light_led_boost.toml"
-GROW_PARTS = SAMPLES / "grow_light_parts.toml"
+GROW_PARTS = SAMPLES / "parts" / "grow_light_parts.toml"
 
 
 @pytest.fixture(scope="module")

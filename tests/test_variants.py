@@ -18,7 +18,7 @@ from lossbudget.thermal import build_network
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_inputs"
 GROW = SAMPLES / "grow_light_led_boost.toml"
-GROW_PARTS = SAMPLES / "grow_light_parts.toml"
+GROW_PARTS = SAMPLES / "parts" / "grow_light_parts.toml"
 FAN = SAMPLES / "fan_tray_sync_buck.toml"
 
 
