@@ -73,6 +73,7 @@ class Budget:
     provenance: dict[str, Any]
     source_input_power: np.ndarray = field(repr=False)
     loop_gain: np.ndarray = field(repr=False)
+    diverging_temperatures: dict[str, np.ndarray] = field(default_factory=dict, repr=False)
     variant_labels: tuple[str, ...] | None = None
 
     # -- derived figures -------------------------------------------------------------------

@@ -21,6 +21,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from lossbudget.errors import DesignError
+from lossbudget.plausible import far_outside
 from lossbudget.units import (
     GLOSSARY,
     format_quantity,
@@ -45,6 +46,17 @@ SUPPLIES = ("vin", "vout", "aux")
 DCM_TURN_ONS = ("settled", "peak", "valley")
 POSITIONS = ("input", "switch", "rectifier", "inductor", "output", "load")
 DERATING_PROFILES = ("none", "moderate", "conservative")
+# [limits.margins]: the quantities of each part kind a derating row may set (the same table
+# the profiles in data/derating.toml use), and the one form of each row: a temperature
+# { below_max = "25 K" } (kelvin below the absolute limit, optionally at_most = "125 degC"),
+# any other { use_up_to = "75 %" } (the share of the rating the design may use).
+MARGIN_QUANTITIES: dict[str, tuple[str, ...]] = {
+    "mosfet": ("t_j", "v_pk"),
+    "diode": ("t_j", "v_pk"),
+    "inductor": ("t_hot", "i_pk", "i_limit", "b_pk"),
+    "capacitor": ("v_pk", "i_rms", "t_hot"),
+    "electrolytic": ("v_pk", "i_rms", "t_hot"),
+}
 RESERVED_NAMES = ("switch", "rectifier", "inductor", "driver", "controller", "ambient")
 T_REF_DEFAULT = 25.0
 
@@ -334,8 +346,24 @@ class Limits:
     """Derating profile (or the user's margins) and the ringing allowance."""
 
     derating: str = "moderate"
-    margins: tuple[tuple[str, str, float], ...] = ()
+    margins: tuple[UserMargin, ...] = ()
     v_spike: float = 0.0
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class UserMargin:
+    """One row of the design's own derating table ``[limits.margins]``.
+
+    ``use_up_to``: the share of the rating the design may use (voltages, currents, flux).
+    ``below_max``: kelvin below the absolute temperature limit, and ``at_most`` an optional
+    ceiling [degC] (temperatures). Exactly one of the two forms is set.
+    """
+
+    kind: str
+    quantity: str
+    use_up_to: float | None = None
+    below_max: float | None = None
+    at_most: float | None = None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -445,6 +473,9 @@ class _Reader:
             return None
         if record:
             self.resolved.append((path, format_quantity(value, dim)))
+        hint = far_outside(dim_key or path, value)
+        if hint is not None:
+            self.warn(path, hint)
         return value
 
     def optional(self, table: dict, key: str, path: str, **kw) -> float | None:
@@ -1314,6 +1345,8 @@ def _core(rd: _Reader, raw: Any) -> Core | None:
         else:
             ct = (float(c[0]), float(c[1]), float(c[2]))
             rd.resolved.append(("inductor.core.ct", ", ".join(f"{x:g}" for x in ct)))
+    else:
+        rd.default("inductor.core.ct", "not given: the core loss has no temperature dependence")
     fit_f = fit_b = None
     if "fit_range" in tab:
         ftab = rd.table(tab["fit_range"], "inductor.core.fit_range", allowed=("f", "b"))
@@ -1761,6 +1794,12 @@ def load_design(source: str | Path | dict) -> Design:
             "expected distinct capacitor, resistor and sink names; repeated: " + ", ".join(dupes),
         )
     _check_gate_drive(rd, driver, {"switch": switch, "rectifier": rectifier})
+    if driver is not None and operating is not None and driver.supply == "vin" \
+            and driver.v_drive > operating.vin.min:
+        rd.warn("driver.supply", f'"vin" (a linear regulator from the input) cannot give the '
+                f"{format_quantity(driver.v_drive, 'voltage')} gate drive at the minimum input "
+                f"voltage {format_quantity(operating.vin.min, 'voltage')}: the gate is driven "
+                "lower there (higher Rds(on), slower edges) than this budget assumes")
     parts = {
         "switch.thermal": switch.thermal if switch else None,
         "rectifier.thermal": rectifier.thermal if rectifier else None,
@@ -1768,7 +1807,11 @@ def load_design(source: str | Path | dict) -> Design:
         **{f"capacitor[{n}].thermal": c.thermal for n, c in enumerate(caps)},
     }
     _check_thermal_paths(rd, parts, sinks, links)
-    limits = _limits(rd, top.get("limits", {}))
+    part_kinds = {"switch": "mosfet", "inductor": "inductor",
+                  "rectifier": "diode" if isinstance(rectifier, Diode) else "mosfet",
+                  **{c.name: "electrolytic" if c.life is not None else "capacitor"
+                     for c in caps}}
+    limits = _limits(rd, top.get("limits", {}), part_kinds)
     if rd.problems:
         raise DesignError(rd.problems)
     return Design(
@@ -1819,11 +1862,11 @@ def _check_gate_drive(
             )
 
 
-def _limits(rd: _Reader, raw: Any) -> Limits:
+def _limits(rd: _Reader, raw: Any, part_kinds: dict[str, str]) -> Limits:
     tab = rd.table(raw, "limits", allowed=("derating", "v_spike", "margins"))
     if tab is None:
         return Limits()
-    margins = _margins(rd, tab["margins"]) if "margins" in tab else ()
+    margins = _margins(rd, tab["margins"], part_kinds) if "margins" in tab else ()
     if "derating" in tab:
         derating = rd.choice(tab, "derating", "limits", (*DERATING_PROFILES, "custom"))
         if derating == "custom" and "margins" not in tab:
@@ -1848,35 +1891,76 @@ def _limits(rd: _Reader, raw: Any) -> Limits:
     return Limits(derating=derating, margins=margins, v_spike=v_spike)
 
 
-def _margins(rd: _Reader, mt: Any) -> tuple[tuple[str, str, float], ...]:
-    """The user's derating table: part kind -> quantity -> margin.
+def _margins(rd: _Reader, mt: Any, part_kinds: dict[str, str]) -> tuple[UserMargin, ...]:
+    """The user's derating table: part kind -> quantity -> one unambiguous row.
 
-    Temperature margins (quantities starting with "t") are kelvin offsets >= 0; the others
-    are fractions of the absolute limit in [0, 1).
+    A temperature row is ``{ below_max = "25 K" }`` (optionally ``at_most = "125 degC"``);
+    any other ``{ use_up_to = "75 %" }``, the share of the rating the design may use. A bare
+    value is refused, since "75 %" reads as either the share used or the share held back.
+    ``part_kinds`` maps the design's part names to their kinds, to name the kind when a
+    part's name is used instead.
     """
     if not isinstance(mt, dict):
         rd.problem("limits.margins", f"expected a table of part kinds, got {_show(mt)}")
         return ()
-    margins: list[tuple[str, str, float]] = []
+    kinds = ", ".join(MARGIN_QUANTITIES)
+    margins: list[UserMargin] = []
     for kind, rows in mt.items():
-        if not isinstance(rows, dict):
-            rd.problem(f"limits.margins.{kind}", "expected a table of quantity = margin")
+        path = f"limits.margins.{kind}"
+        if kind not in MARGIN_QUANTITIES:
+            hint = (f' ("{kind}" is a part name: write its kind, {part_kinds[kind]})'
+                    if kind in part_kinds else "")
+            rd.problem(path, f"expected a part kind, one of {kinds}{hint}")
             continue
-        for qty, val in rows.items():
-            path = f"limits.margins.{kind}.{qty}"
-            dim = "temperature_difference" if str(qty).startswith("t") else "fraction"
+        if not isinstance(rows, dict):
+            rd.problem(path, "expected a table of quantity = { use_up_to = ... } or "
+                       "{ below_max = ... }")
+            continue
+        for qty, row in rows.items():
+            qpath = f"{path}.{qty}"
+            if qty not in MARGIN_QUANTITIES[kind]:
+                rd.problem(qpath, f"expected a quantity of a {kind}, one of "
+                           f"{', '.join(MARGIN_QUANTITIES[kind])}")
+                continue
+            temperature = str(qty).startswith("t")
+            form = ('{ below_max = "25 K" } (kelvin below the absolute limit)' if temperature
+                    else '{ use_up_to = "75 %" } (the share of the rating the design may use)')
+            allowed = ("below_max", "at_most") if temperature else ("use_up_to",)
+            if not isinstance(row, dict) or not row or set(row) - set(allowed) \
+                    or (allowed[0] not in row):
+                rd.problem(qpath, f"expected {form}, got {_show(row)}")
+                continue
+            where = f"{rd.source}: {qpath}"
             try:
-                x = parse_quantity(val, dim, where=f"{rd.source}: {path}")
+                if temperature:
+                    below = parse_quantity(row["below_max"], "temperature_difference",
+                                           where=f"{where}.below_max")
+                    at_most = (parse_quantity(row["at_most"], "temperature",
+                                              where=f"{where}.at_most")
+                               if "at_most" in row else None)
+                else:
+                    share = parse_quantity(row["use_up_to"], "fraction",
+                                           where=f"{where}.use_up_to")
             except DesignError as exc:
                 rd.problems.extend(exc.problems)
                 continue
-            if dim == "fraction" and not 0 <= x < 1:
-                rd.problem(path, f"expected a fraction in [0, 1), got {_show(val)}")
-            elif x < 0:
-                rd.problem(path, f"expected a margin >= 0 K, got {_show(val)}")
+            if temperature and below < 0:
+                rd.problem(f"{qpath}.below_max", f"expected a margin >= 0 K, got "
+                           f"{_show(row['below_max'])}")
+            elif not temperature and not 0 < share <= 1:
+                rd.problem(f"{qpath}.use_up_to", "expected a share of the rating in (0 %, "
+                           f"100 %], got {_show(row['use_up_to'])}")
+            elif temperature:
+                margins.append(UserMargin(kind=kind, quantity=qty, below_max=below,
+                                      at_most=at_most))
+                text = format_quantity(below, "temperature_difference") + " below the limit"
+                if at_most is not None:
+                    text += f", at most {format_quantity(at_most, 'temperature')}"
+                rd.resolved.append((qpath, text))
             else:
-                margins.append((str(kind), str(qty), x))
-                rd.resolved.append((path, format_quantity(x, dim)))
+                margins.append(UserMargin(kind=kind, quantity=qty, use_up_to=share))
+                rd.resolved.append((qpath, f"use up to {format_quantity(share, 'fraction')} "
+                                    "of the rating"))
     return tuple(margins)
 
 

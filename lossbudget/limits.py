@@ -24,7 +24,7 @@ import numpy as np
 
 from lossbudget.budget import AXES, AXIS_COLUMNS, Budget
 from lossbudget.cautions import CAUTIONS
-from lossbudget.design import DERATING_PROFILES, Corner, Design, Diode
+from lossbudget.design import DERATING_PROFILES, MARGIN_QUANTITIES, Corner, Design, Diode
 from lossbudget.errors import DesignError
 from lossbudget.solver import solve
 from lossbudget.sweep import sweep
@@ -34,13 +34,7 @@ Status = Literal["ok", "caution", "fail"]
 STATUS_ORDER: tuple[Status, ...] = ("ok", "caution", "fail")
 
 PART_KINDS = ("mosfet", "diode", "inductor", "capacitor", "electrolytic")
-KIND_QUANTITIES: dict[str, tuple[str, ...]] = {
-    "mosfet": ("t_j", "v_pk"),
-    "diode": ("t_j", "v_pk"),
-    "inductor": ("t_hot", "i_pk", "i_limit", "b_pk"),
-    "capacitor": ("v_pk", "i_rms", "t_hot"),
-    "electrolytic": ("v_pk", "i_rms", "t_hot"),
-}
+KIND_QUANTITIES: dict[str, tuple[str, ...]] = MARGIN_QUANTITIES
 BASIS_STATUSES = ("published", "common practice", "from memory (verify)", "absolute rating")
 
 # The envelope grid: load fractions of the rated output current, points per axis.
@@ -138,40 +132,39 @@ def derating_profiles() -> dict[str, dict[tuple[str, str], Margin]]:
 
 
 def _margins_for(design: Design, derating: str | None) -> tuple[str, dict[tuple[str, str], Margin]]:
-    """The profile's rows, overridden by the design's ``[limits.margins]`` rows."""
+    """The design limits' rows: a named profile's, or (``custom``) the design's own rows.
+
+    ``custom`` takes the design's ``[limits.margins]`` rows (validated by the loader) and the
+    moderate profile for the rows they do not name. A named profile (``none``, ``moderate``,
+    ``conservative``) uses its own rows only, whatever the design's table holds.
+    """
     name = derating if derating is not None else design.limits.derating
     allowed = (*DERATING_PROFILES, "custom")
     if name not in allowed:
         raise ValueError(f"derating: expected one of {', '.join(allowed)}, got {name!r}")
     if name == "custom" and not design.limits.margins:
-        raise DesignError(f'{design.source}: limits.derating: "custom" needs [limits.margins]')
+        raise DesignError(f"{design.source}: limits.margins: --derating custom needs the "
+                          "design's [limits.margins] table")
     profiles = derating_profiles()
-    rows = dict(profiles["moderate" if name == "custom" else name])
-    base = "moderate" if name == "custom" else name
-    problems = []
-    for kind, qty, value in design.limits.margins:
-        path = f"{design.source}: limits.margins.{kind}"
-        if kind not in KIND_QUANTITIES:
-            problems.append(f"{path}: unknown part kind; expected one of {', '.join(PART_KINDS)}")
-            continue
-        if qty not in KIND_QUANTITIES[kind]:
-            problems.append(f"{path}.{qty}: unknown quantity; expected one of "
-                            f"{', '.join(KIND_QUANTITIES[kind])}")
-            continue
-        key = f"limits.margins.{kind}.{qty}"
-        if qty.startswith("t"):
-            m = Margin(kind=kind, quantity=qty, below_k=value,
-                       document=f"{key} = {value:g} K below the limit (design file)",
-                       status="the design's own margin")
+    if name != "custom":
+        return name, dict(profiles[name])
+    rows = dict(profiles["moderate"])
+    for m in design.limits.margins:
+        key = f"limits.margins.{m.kind}.{m.quantity}"
+        if m.use_up_to is None:
+            text = f"{m.below_max:g} K below the limit"
+            if m.at_most is not None:
+                text += f", at most {m.at_most:g} degC"
+            rows[m.kind, m.quantity] = Margin(
+                kind=m.kind, quantity=m.quantity, below_k=m.below_max,
+                at_most_degc=m.at_most, document=f"{key}: {text} (design file)",
+                status="the design's own margin")
         else:
-            m = Margin(kind=kind, quantity=qty, of_rating=1.0 - value,
-                       document=f"{key} = {value * 100:g} % below the rating (design file)",
-                       status="the design's own margin")
-        rows[kind, qty] = m
-    if problems:
-        raise DesignError(problems)
-    label = name if name != "custom" else f"custom ({base} for the rows not named)"
-    return label, rows
+            rows[m.kind, m.quantity] = Margin(
+                kind=m.kind, quantity=m.quantity, of_rating=m.use_up_to,
+                document=f"{key}: use up to {m.use_up_to * 100:g} % of the rating "
+                "(design file)", status="the design's own margin")
+    return "custom (moderate for the rows not named)", rows
 
 
 # --------------------------------------------------------------------------------------------
@@ -679,6 +672,25 @@ def _where_text(point: dict[str, float], axes: tuple[str, ...]) -> str:
     return ", ".join(f"{a} {_q(point[a], dims[a])}" for a in axes)
 
 
+def _unsolved(row: LimitRow) -> LimitRow:
+    """A part row beside a stage with points that did not solve (runaway, no convergence).
+
+    Its worst value covers only the points that solved, so it is not ``ok``: it becomes a
+    ``caution`` saying so (the stage row itself is the ``fail``).
+    """
+    if row.status != "ok" or row.part == "stage":
+        return row
+    why = ("worst over the solved points only: no steady temperature where the stage runs "
+           "away (see the stage row)" if row.unit == "degC" else
+           "worst over the solved points only: not evaluated where the stage did not solve "
+           "(see the stage row)")
+    note = f"{row.note}; {why}" if row.note else why
+    return LimitRow(part=row.part, quantity=row.quantity, unit=row.unit, worst=row.worst,
+                    where=row.where, design_limit=row.design_limit,
+                    absolute_limit=row.absolute_limit, margin=row.margin,
+                    margin_unit=row.margin_unit, status="caution", basis=row.basis, note=note)
+
+
 def _stage_rows(design: Design, budgets: list[Budget], grid: Budget, corner: Corner,
                 varying: tuple[str, ...]) -> list[LimitRow]:
     """Rows for thermal runaway or non-convergence (fail) and infeasible points (caution)."""
@@ -773,11 +785,11 @@ def check_limits(design: Design, *, derating: str | None = None,
     design : Design
         A design from :func:`lossbudget.load_design`.
     derating : {"none", "moderate", "conservative", "custom"}, optional
-        Derating profile; the design's ``limits.derating`` when omitted. The design's own
-        ``[limits.margins]`` rows override the profile's rows they name ("custom": the
-        moderate profile for the rows not named). A user margin on a quantity starting with
-        "t" is kelvin below the absolute limit; any other is the fraction held back below the
-        rating (``v_pk = "20 %"``: the design limit is 80 % of the rating).
+        Derating profile; the design's ``limits.derating`` when omitted. ``"custom"`` uses
+        the design's ``[limits.margins]`` rows and the moderate profile for the rows not
+        named; a named profile uses its own rows only. A design row is
+        ``{ use_up_to = "75 %" }`` (the design limit is 75 % of the rating) or, for a
+        temperature, ``{ below_max = "25 K" }`` (25 K below the absolute limit).
     corner : {"worst", "typ"}
         Part values; the check is meant for ``"worst"``.
 
@@ -862,7 +874,10 @@ def check_limits(design: Design, *, derating: str | None = None,
             design_limit=nan, absolute_limit=nan, margin=nan, margin_unit="", status="fail",
             basis="not evaluated: no point of the envelope solved", note="",
         ))
-    rows.extend(_stage_rows(design, budgets, grid, corner, varying))
+    stage = _stage_rows(design, budgets, grid, corner, varying)
+    if any(r.quantity == "thermal" for r in stage):
+        rows = [_unsolved(r) for r in rows]
+    rows.extend(stage)
     worst = max((r.status for r in rows), key=STATUS_ORDER.index, default="ok")
 
     dims = {"vin": "voltage", "vout": "voltage", "load": "current", "ambient": "temperature",

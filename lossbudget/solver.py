@@ -194,6 +194,11 @@ def _context(design: Design, corner: Corner) -> _Context:
                 f"copper_ac: Dowell's Δ1 back-solved from rac_rdc = {_text(w.rac_rdc)} at the "
                 "nominal fsw and 25 degC" + ("" if w.layers else ", layers = 1 assumed")
             )
+    if ind.core is not None and ind.core.ct is None:
+        notes.append(
+            "core: no inductor.core.ct given, so the core loss has no temperature dependence "
+            "(taken at the fitted k, alpha, beta whatever the core's temperature)"
+        )
     caps = design.capacitors
     network = _network(design)
     parts = ("switch", "rectifier", "inductor", *(c.name for c in caps))
@@ -250,25 +255,33 @@ def _at_points(ctx: _Context, g: _Grid) -> _Context:
     )
 
 
-def _network(design: Design):
-    nodes: list[str] = []
-    res: list[tuple[str, str, float]] = []
+def thermal_paths(design: Design) -> tuple[tuple[str, str, float, str], ...]:
+    """Every resistance of the design's thermal network, with the key it comes from.
+
+    Returns
+    -------
+    tuple
+        (node, node, resistance [K/W], the design key and how it is counted) per path or
+        link; a part of ``count`` parallel devices has its resistances divided by the count.
+    """
+    res: list[tuple[str, str, float, str]] = []
 
     def part(name: str, th, count: int) -> None:
-        nodes.append(name)
+        per = (f" / count {count}" if count > 1 else "") if np.ndim(count) == 0 else (
+            " / count (by variant)")
         if th.sink is not None:
             if th.rth_jc is not None and th.rth_cs is not None:
-                nodes.append(f"{name}.case")
-                res.append((name, f"{name}.case", th.rth_jc / count))
-                res.append((f"{name}.case", th.sink, th.rth_cs / count))
+                res.append((name, f"{name}.case", th.rth_jc / count, f"{name}.thermal.rth_jc{per}"))
+                res.append((f"{name}.case", th.sink, th.rth_cs / count,
+                            f"{name}.thermal.rth_cs{per}"))
             elif th.rth_jc is not None:
-                res.append((name, th.sink, th.rth_jc / count))
+                res.append((name, th.sink, th.rth_jc / count, f"{name}.thermal.rth_jc{per}"))
             elif th.rth_jb is not None:
-                res.append((name, th.sink, th.rth_jb / count))
+                res.append((name, th.sink, th.rth_jb / count, f"{name}.thermal.rth_jb{per}"))
         if th.rth_ha is not None:
-            res.append((name, "ambient", th.rth_ha / count))
+            res.append((name, "ambient", th.rth_ha / count, f"{name}.thermal.rth_ha{per}"))
         if th.rth_ja is not None:
-            res.append((name, "ambient", th.rth_ja / count))
+            res.append((name, "ambient", th.rth_ja / count, f"{name}.thermal.rth_ja{per}"))
 
     part("switch", design.switch.thermal, design.switch.count)
     part("rectifier", design.rectifier.thermal, design.rectifier.count)
@@ -276,11 +289,24 @@ def _network(design: Design):
     for c in design.capacitors:
         part(c.name, c.thermal, c.count)
     for s in design.sinks:
-        nodes.append(s.name)
         if s.rth_to_ambient is not None:
-            res.append((s.name, "ambient", s.rth_to_ambient))
+            res.append((s.name, "ambient", s.rth_to_ambient,
+                        f"thermal.sink {s.name}: rth_to_ambient"))
     for link in design.links:
-        res.append((link.between[0], link.between[1], link.rth))
+        res.append((link.between[0], link.between[1], link.rth, "thermal.link"))
+    return tuple(res)
+
+
+def _network(design: Design):
+    nodes: list[str] = []
+    for name, th in (("switch", design.switch.thermal), ("rectifier", design.rectifier.thermal),
+                     ("inductor", design.inductor.thermal),
+                     *((c.name, c.thermal) for c in design.capacitors)):
+        nodes.append(name)
+        if th.sink is not None and th.rth_jc is not None and th.rth_cs is not None:
+            nodes.append(f"{name}.case")
+    nodes.extend(s.name for s in design.sinks)
+    res = [(a, b, r) for a, b, r, _ in thermal_paths(design)]
     try:
         return build_network(nodes, res)
     except ValueError as exc:
@@ -896,7 +922,15 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     st["switch", "turn_on"] = ("computed", "")
     st["switch", "turn_off"] = ("computed", "")
     st["switch", "coss"] = ("computed", "") if (sw.qoss or sw.eoss) else ("not_modelled", coss_key)
-    if ctx.sync:
+    if ctx.sync and d.light_load == "diode-emulation":
+        # the switch's body diode conducts in the dead times only while the inductor current
+        # is reversed, which diode emulation never lets it be: no data would change a number
+        st["switch", "dead_time"] = (
+            "not_applicable",
+            "diode emulation: the inductor current never reverses, so the switch's body "
+            "diode never conducts",
+        )
+    elif ctx.sync:
         has_dt = d.driver.dead_time is not None
         st["switch", "dead_time"] = (
             ("computed", "")
@@ -1301,6 +1335,7 @@ class _Chunk:
     reason: np.ndarray
     loop_gain: np.ndarray
     pout: np.ndarray
+    diverging: np.ndarray
 
 
 def _temps_dict(ctx: _Context, temps: np.ndarray) -> dict[str, np.ndarray]:
@@ -1331,6 +1366,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
         return _evaluate(ctx, sub, _temps_dict(ctx, temps), full=False)
 
     temps = np.full((n, len(ctx.nodes)), np.nan)
+    diverging = np.full((n, len(ctx.nodes)), np.nan)
     runaway = np.zeros(n, dtype=bool)
     not_conv = np.zeros(n, dtype=bool)
     gain = np.full(n, np.nan)
@@ -1346,6 +1382,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
             transfer=ctx.network.transfer_resistance[g.variant[ok]] if stack else None,
         )
         temps[ok] = sol.temperatures
+        diverging[ok] = sol.last_temperatures
         runaway[ok] = sol.runaway
         not_conv[ok] = sol.not_converged
         gain[ok] = sol.loop_gain
@@ -1369,7 +1406,8 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     ev.stage = _StageSummary(duty=st.duty, d2=st.d2, dcm=st.dcm)
     ev.zero = {k: _shared_strings(v) for k, v in ev.zero.items()}
     return _Chunk(
-        ev=ev, temps=temps, flags=flags, reason=reason, loop_gain=gain, pout=g.vout * g.load
+        ev=ev, temps=temps, flags=flags, reason=reason, loop_gain=gain, pout=g.vout * g.load,
+        diverging=diverging,
     )
 
 
@@ -1461,6 +1499,9 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         provenance=provenance,
         source_input_power=cat(lambda p: p.ev.source_power) * nan,
         loop_gain=cat(lambda p: p.loop_gain) * nan,
+        diverging_temperatures={
+            node: cat(lambda p, j=j: p.diverging[:, j]) for j, node in enumerate(ctx.nodes)
+        },
     )
 
 

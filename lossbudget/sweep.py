@@ -8,6 +8,7 @@ input voltage and axis 1 the load).
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, fields, replace
 
 import numpy as np
@@ -327,6 +328,35 @@ class MapSummary:
     flagged_reasons: tuple[tuple[str, int], ...]
 
 
+_NUMBER = re.compile(r"[-+]?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?")
+
+
+def group_reasons(reasons) -> tuple[tuple[str, int], ...]:
+    """Group flag reasons by kind (the text with its numbers set aside), most frequent first.
+
+    Reasons that differ only in their numbers ("loop gain 1.012 >= 1", "loop gain 1.284 >= 1")
+    are one kind; each number that varies within a kind is shown as its span
+    ("loop gain 1.012 to 1.284 >= 1"). Returns (text, count) pairs.
+    """
+    kinds: dict[tuple[str, ...], list[list[float]]] = {}
+    texts: dict[tuple[str, ...], list[str]] = {}
+    for reason in np.asarray(reasons).astype(str).ravel().tolist():
+        parts = tuple(_NUMBER.split(reason))
+        kinds.setdefault(parts, []).append([float(x) for x in _NUMBER.findall(reason)])
+        texts.setdefault(parts, []).append(reason)
+    out = []
+    for parts, numbers in kinds.items():
+        values = np.array(numbers, dtype=float).reshape(len(numbers), len(parts) - 1)
+        first = _NUMBER.findall(texts[parts][0])
+        shown = []
+        for j in range(len(parts) - 1):
+            lo, hi = values[:, j].min(), values[:, j].max()
+            shown.append(first[j] if lo == hi else f"{lo:.4g} to {hi:.4g}")
+        text = "".join(p + (shown[j] if j < len(shown) else "") for j, p in enumerate(parts))
+        out.append((text, len(numbers)))
+    return tuple(sorted(out, key=lambda rc: -rc[1]))
+
+
 def map_summary(budget: Budget, *, rated_load: float | None = None) -> MapSummary:
     """Summarise a map: peak efficiency and where, efficiency at rated load over the input.
 
@@ -355,8 +385,7 @@ def map_summary(budget: Budget, *, rated_load: float | None = None) -> MapSummar
     chosen = loads[-1] if rated_load is None else loads[np.argmin(np.abs(loads - rated_load))]
     at = load == chosen
     order = np.argsort(vin[at], kind="stable")
-    reasons, counts = np.unique(np.ravel(budget.reason)[flagged].astype(str), return_counts=True)
-    ranked = sorted(zip(reasons.tolist(), counts.tolist(), strict=True), key=lambda rc: -rc[1])
+    ranked = group_reasons(np.ravel(budget.reason)[flagged])
     return MapSummary(
         points=eff.size,
         peak_efficiency=peak,

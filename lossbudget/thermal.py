@@ -361,6 +361,10 @@ class CoupledSolution:
         The loss model returned NaN on the way (not a runaway). [-]
     reason : ndarray of str, shape (npoints,)
         Why a point has no solution, ``""`` where it solved. [-]
+    last_temperatures : ndarray, shape (npoints, n)
+        Where the point ran away or did not converge, the node temperatures of the last
+        iteration (the last one below ``ceiling`` where a node passed it): diverging, not a
+        solution, for a report to show where it was heading; NaN elsewhere. [degC]
     """
 
     nodes: tuple[str, ...]
@@ -372,6 +376,7 @@ class CoupledSolution:
     not_converged: np.ndarray
     undefined: np.ndarray
     reason: np.ndarray
+    last_temperatures: np.ndarray
 
     @property
     def solved(self) -> np.ndarray:
@@ -541,6 +546,7 @@ def solve_coupled(
     eps = np.finfo(float).eps
     accepted = np.full((npoints, n), np.nan)
     last = np.repeat(ambient[:, np.newaxis], n, axis=1)
+    before = np.full((npoints, n), np.nan)  # a runaway's last iterate below the ceiling
     step_prev = np.full(npoints, np.nan)
     ratio_prev = np.full(npoints, np.nan)
     iterations = np.zeros(npoints, dtype=int)
@@ -575,9 +581,11 @@ def solve_coupled(
         undefined[active[bad]] = True
         over_ceiling[active[hot]] = True
         gain_runaway[active[leaving]] = True
+        before[active[leaving]] = t_new[leaving]
         converged[active[done]] = True
         accepted[active[done]] = t_new[done]
         last[active[hot]] = t_new[hot]
+        before[active[hot]] = t_old[hot]
         keep = ~(bad | hot | done | leaving)
         active = active[keep]
         last[active] = t_new[keep]
@@ -615,6 +623,7 @@ def solve_coupled(
         passed = (t_final > ceiling).any(axis=1)
         over_ceiling[ok[passed]] = True
         last[ok[passed]] = t_final[passed]
+        before[ok[passed]] = t_final[passed]
         unstable = ~passed & (rho >= 1.0)
         network_runaway[ok[unstable]] = True
         good = ~passed & ~unstable
@@ -648,4 +657,7 @@ def solve_coupled(
         not_converged=not_converged,
         undefined=undefined,
         reason=reason.astype(str),
+        last_temperatures=np.where(
+            (network_runaway | not_converged)[:, np.newaxis], last,
+            np.where((over_ceiling | gain_runaway)[:, np.newaxis], before, np.nan)),
     )

@@ -167,6 +167,29 @@ def _unit_scale(text: str, dim: Dimension) -> tuple[float, float] | None:
     return None
 
 
+_PREFIX_NAMES = {"p": "pico", "n": "nano", "u": "micro", "\u00b5": "micro", "\u03bc": "micro",
+                 "m": "milli", "c": "centi", "k": "kilo", "M": "mega", "G": "giga"}
+
+
+def _unit_hint(text: str, dim: Dimension) -> str:
+    """A suggestion for a unit spelt in the wrong case ("khz" -> "kHz"), or ""."""
+    found: list[str] = []
+    for unit in dim.units:
+        heads = [""]
+        if unit.prefixable:
+            heads += list(PREFIXES | CENTI if unit.centi else PREFIXES)
+        for head in heads:
+            spelling = head + unit.symbol
+            if spelling.lower() == text.lower() and spelling not in found:
+                found.append(spelling)
+    if not found:
+        return ""
+    named = [f'"{f}"' + (f" ({_PREFIX_NAMES[f[0]]})" if len(found) > 1 and f[0] in
+                         _PREFIX_NAMES and f[1:] in {u.symbol for u in dim.units} else "")
+             for f in found]
+    return f"; did you mean {' or '.join(named)}? (prefixes are case-sensitive)"
+
+
 def printable(text: str) -> str:
     """Text with its non-printable characters escaped (a newline shows as \\n), so that a
     problem stays on one line; other characters, µ and Ω included, are kept."""
@@ -221,7 +244,8 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
         if unit_text:
             scale_offset = _unit_scale(unit_text, dim)
             if scale_offset is None:
-                raise DesignError(f"{prefix}expected {expected}, got {quote_text(value)}")
+                raise DesignError(f"{prefix}expected {expected}, got {quote_text(value)}"
+                                  + _unit_hint(unit_text, dim))
             scale, offset = scale_offset
             number = number * scale + offset
         elif not dim.bare_ok:

@@ -67,7 +67,9 @@ def test_export_units_percent_log_corner_and_ambient(tmp_path):
     vins, loads, _ = _map(path)
     rated = lb.load_design(DEMO).operating.iout_rated
     np.testing.assert_allclose(vins, [18.0, 24.0], rtol=1e-15)
-    np.testing.assert_allclose(loads, rated * np.geomspace(0.1, 1.0, 3), rtol=1e-15)
+    # the map's axis labels hold 4 significant digits (as the tables print them): within
+    # half a unit of the 4th digit
+    np.testing.assert_allclose(loads, rated * np.geomspace(0.1, 1.0, 3), rtol=5e-4)
     points = pd.read_excel(path, sheet_name="Points", engine="openpyxl")
     assert set(points["ambient_degc"]) == {40.0}
     texts = [r[1] for r in openpyxl.load_workbook(path)["Summary"].iter_rows(values_only=True)

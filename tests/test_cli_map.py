@@ -17,7 +17,7 @@ from lossbudget.cli import main
 
 DEMO = str(importlib.resources.files("lossbudget") / "data" / "demo.toml")
 SMALL = ["--vin", "18 V:32 V:3", "--load-pct", "10:100:4"]
-PLOTS = ("efficiency_map", "efficiency_curves", "loss_breakdown", "temperatures")
+PLOTS = ("efficiency_map", "efficiency_curves", "loss_breakdown", "temperatures", "loss_bars")
 
 
 @pytest.fixture(autouse=True)
@@ -140,6 +140,11 @@ def test_demo_writes_everything_into_its_folder(tmp_path):
     workbook = "budget.xlsx" in written or "workbook skipped" in text
     assert limits and workbook
     assert text.count("caution:") >= 3
+    # the limit table prints its limits with units: the demo switch's 100 V rating, derated
+    # to 80 % by the moderate profile (data/derating.toml), and the margin chart beside it
+    switch_v = next(ln for ln in text.splitlines() if ln.split()[:2] == ["switch", "v_pk"])
+    assert "80 V" in switch_v and "100 V" in switch_v
+    assert "margins.png" in written
 
 
 def test_import_leaves_heavy_libraries_out():

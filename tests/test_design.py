@@ -455,12 +455,50 @@ def test_custom_derating_needs_margins():
         load_design(raw)
 
 
-def test_margin_fraction_outside_zero_one():
+def test_margin_share_outside_zero_to_one_hundred_percent():
     raw = demo_raw()
     del raw["limits"]["derating"]
-    raw["limits"]["margins"] = {"mosfet": {"tj": "20 K", "v": 1.5}}
-    with pytest.raises(DesignError, match=r"limits\.margins\.mosfet\.v: expected a fraction"):
+    raw["limits"]["margins"] = {"mosfet": {"v_pk": {"use_up_to": 1.5}}}
+    with pytest.raises(DesignError,
+                       match=r"limits\.margins\.mosfet\.v_pk\.use_up_to: expected a share"):
         load_design(raw)
+
+
+@pytest.mark.parametrize(("rows", "needle"), [
+    # a bare value reads both ways (share used or share held back): refused, naming the form
+    ({"mosfet": {"v_pk": "75 %"}},
+     r'limits\.margins\.mosfet\.v_pk: expected \{ use_up_to = "75 %" \}'),
+    ({"mosfet": {"t_j": "25 K"}},
+     r'limits\.margins\.mosfet\.t_j: expected \{ below_max = "25 K" \}'),
+    # a part's name where its kind belongs: the kind is named
+    ({"switch": {"v_pk": {"use_up_to": "75 %"}}},
+     r'limits\.margins\.switch: expected a part kind, .*"switch" is a part name: write its '
+     r"kind, mosfet"),
+    ({"mosfet": {"vds": {"use_up_to": "75 %"}}},
+     r"limits\.margins\.mosfet\.vds: expected a quantity of a mosfet"),
+])
+def test_margin_rows_have_one_form_checked_in_the_loader(rows, needle):
+    raw = demo_raw()
+    del raw["limits"]["derating"]
+    raw["limits"]["margins"] = rows
+    with pytest.raises(DesignError, match=needle) as info:
+        load_design(raw)
+    assert len(info.value.problems) == 1
+
+
+def test_margin_rows_resolve_to_the_share_used_and_the_kelvin_below():
+    raw = demo_raw()
+    del raw["limits"]["derating"]
+    raw["limits"]["margins"] = {"mosfet": {"v_pk": {"use_up_to": "75 %"},
+                                           "t_j": {"below_max": "30 K", "at_most": "130 degC"}}}
+    d = load_design(raw)
+    assert d.limits.derating == "custom"
+    by = {(m.kind, m.quantity): m for m in d.limits.margins}
+    assert by["mosfet", "v_pk"].use_up_to == pytest.approx(0.75)
+    assert by["mosfet", "t_j"].below_max == pytest.approx(30.0)
+    assert by["mosfet", "t_j"].at_most == pytest.approx(130.0)
+    shown = dict(d.resolved)
+    assert shown["limits.margins.mosfet.v_pk"] == "use up to 75 % of the rating"
 
 
 def test_several_problems_reported_together():

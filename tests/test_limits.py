@@ -376,7 +376,8 @@ def test_worst_corner_runs_hotter_than_typical():
 
 def test_user_margins_override_the_rows_they_name():
     rep = report(*NO_LIMIT, ("limits.derating", None),
-                 ("limits.margins", {"mosfet": {"t_j": "50 K", "v_pk": "30 %"}}))
+                 ("limits.margins", {"mosfet": {"t_j": {"below_max": "50 K"},
+                                                "v_pk": {"use_up_to": "70 %"}}}))
     assert rep.derating.startswith("custom")
     tj, v = row(rep, "switch", "t_j"), row(rep, "switch", "v_pk")
     assert tj.design_limit == pytest.approx(175.0 - 50.0)
@@ -386,11 +387,21 @@ def test_user_margins_override_the_rows_they_name():
     assert row(rep, "rectifier", "t_j").design_limit == pytest.approx(150.0 - 25.0)
 
 
-def test_unknown_margin_quantity_is_bad_input():
-    design = lb.load_design(raw_with(("limits.derating", None),
-                                     ("limits.margins", {"mosfet": {"vds": "20 %"}})))
+def test_unknown_margin_quantity_is_refused_by_the_loader():
     with pytest.raises(lb.DesignError, match=r"limits\.margins\.mosfet\.vds"):
-        check_limits(design)
+        lb.load_design(raw_with(("limits.derating", None),
+                                ("limits.margins", {"mosfet": {"vds": {"use_up_to": "80 %"}}})))
+
+
+def test_a_named_profile_ignores_the_design_margins():
+    design = lb.load_design(raw_with(*NO_LIMIT, ("limits.derating", None),
+                                     ("limits.margins", {"mosfet": {"v_pk": {"use_up_to":
+                                                                             "50 %"}}})))
+    custom = check_limits(design)
+    moderate = check_limits(design, derating="moderate")
+    # the design's row (50 % of the 100 V rating) under custom; moderate's own 80 % otherwise
+    assert row(custom, "switch", "v_pk").design_limit == pytest.approx(50.0)
+    assert row(moderate, "switch", "v_pk").design_limit == pytest.approx(80.0)
 
 
 def test_profile_none_uses_the_absolute_limits():

@@ -119,9 +119,15 @@ def test_point_sheet_equals_the_point_table(book, budget):
     _assert_frame_equal(_read(book, "Points"), budget.point_table(), rtol=XLSX_RTOL)
 
 
-def test_stress_sheet_equals_the_stress_table(book, budget):
-    _assert_frame_equal(_read(book, "Stresses"), _with_reason(budget.stress_table(), budget),
-                        rtol=XLSX_RTOL)
+AXES = ["vin_v", "vout_v", "load_a", "ambient_degc", "fsw_hz"]
+
+
+def test_stress_sheet_equals_the_stress_table_with_the_operating_axes(book, budget):
+    want = _with_reason(budget.stress_table(), budget)
+    points = budget.point_table().set_index("point_id")
+    for k, axis in enumerate(AXES, start=1):
+        want.insert(k, axis, points.loc[want["point_id"], axis].to_numpy())
+    _assert_frame_equal(_read(book, "Stresses"), want, rtol=XLSX_RTOL)
 
 
 def test_sheets_agree_with_the_energy_balance(book):
@@ -161,15 +167,25 @@ def test_thermal_sheet_every_node_limit_and_margin(book, budget):
     nodes = list(budget.temperatures)
     n = int(np.prod(budget.shape))
     assert len(got) == n * len(nodes)
-    assert list(got.columns[7:10]) == ["t_degc", "t_max_degc", "margin_k"]
+    assert list(got.columns[7:12]) == ["t_degc", "t_design_limit_degc", "margin_design_k",
+                                       "t_max_degc", "margin_k"]
+    # the design limits after derating are those the limit check uses (the demo's moderate
+    # profile: T_J,max - 25 K, hot spot - 15 K inductor, - 10 K ceramic; data/derating.toml)
+    derated = {r.part: r.design_limit for r in lb.check_limits(lb.load_design(DEMO)).rows
+               if r.quantity in ("t_j", "t_hot")}
+    assert derated["switch"] == pytest.approx(175.0 - 25.0)
     for node in nodes:
         rows = got[got["node"] == node].sort_values("point_id")
-        np.testing.assert_allclose(rows["t_degc"], np.ravel(budget.temperature(node)),
-                                   rtol=XLSX_RTOL, atol=0, equal_nan=True)
+        t = np.ravel(budget.temperature(node))
+        np.testing.assert_allclose(rows["t_degc"], t, rtol=XLSX_RTOL, atol=0, equal_nan=True)
         limit = budget.temperature_limits.get(node, np.nan)
         np.testing.assert_allclose(rows["t_max_degc"], np.full(n, limit), equal_nan=True)
-        np.testing.assert_allclose(rows["margin_k"], limit - np.ravel(budget.temperature(node)),
-                                   rtol=1e-12, equal_nan=True)
+        np.testing.assert_allclose(rows["margin_k"], limit - t, rtol=1e-12, equal_nan=True)
+        design = derated.get(node, np.nan)
+        np.testing.assert_allclose(rows["t_design_limit_degc"], np.full(n, design),
+                                   equal_nan=True)
+        np.testing.assert_allclose(rows["margin_design_k"], design - t, rtol=1e-12,
+                                   equal_nan=True)
     assert set(got.loc[got["reason"].notna(), "point_id"]) == {10}
 
 
@@ -239,11 +255,13 @@ def test_native_charts(book, wb, budget):
         charts = sorted(n for n in z.namelist() if n.startswith("xl/charts/chart"))
         xml = {n: z.read(n).decode() for n in charts}
     assert charts == ["xl/charts/chart1.xml", "xl/charts/chart2.xml"]
-    assert "scatterChart" in xml[charts[0]] and "'Map'!" in xml[charts[0]]
+    # the efficiency curves plot the Charts sheet's table of the design's own input voltages
+    assert "scatterChart" in xml[charts[0]] and "'Charts'!" in xml[charts[0]]
     assert "barChart" in xml[charts[1]] and 'val="stacked"' in xml[charts[1]]
     got = wb["Charts"]._charts
     assert [type(c).__name__ for c in got] == ["ScatterChart", "BarChart"]
-    assert len(got[0].series) == len(VIN)  # one series per input voltage
+    # one series per input voltage of the design: min 18, nom 24, max 32 V (design file)
+    assert [s.tx.v for s in got[0].series] == ["vin 18 V", "vin 24 V", "vin 32 V"]
     assert len(got[1].series) == len(budget.components)  # stacked by component
 
 
@@ -251,7 +269,7 @@ def test_breakdown_table_is_the_nominal_input_voltage(wb, budget):
     # the demo's nominal input voltage is 24 V (design file), a grid value here
     ws = wb["Charts"]
     assert "24 V" in ws["A1"].value
-    rows = list(ws.iter_rows(min_row=3, values_only=True))
+    rows = list(ws.iter_rows(min_row=3, max_row=2 + len(LOAD), values_only=True))
     header = [c.value for c in ws[2]]
     assert [r[0] for r in rows] == LOAD
     for k, component in enumerate(budget.components, start=1):

@@ -11,6 +11,7 @@ import click
 from lossbudget.commands.common import (
     EXIT_LIMIT_FAILED,
     EXIT_OK,
+    BadInput,
     design_argument,
     read_design,
     reports_bad_input,
@@ -44,21 +45,9 @@ def _wrap(text: str, indent: str, hang: str = "    ") -> list[str]:
                          subsequent_indent=indent + hang, break_on_hyphens=False)
 
 
-def check_report(report) -> str:
-    """The text report of a :class:`~lossbudget.limits.LimitReport`."""
+def limit_table(report) -> list[str]:
+    """The limit rows as an aligned table with units, then the basis of each design limit."""
     varying = report.varying_axes
-    fixed = [a for a, values in report.envelope.items() if len(values) == 1]
-    lines = [
-        f"{report.design_name}: limits over the operating envelope",
-        f"  corner: {report.corner}-case part values"
-        + (" (max resistances, drops, charges and leakage; min capacitance, inductance and "
-           "saturation current)" if report.corner == "worst" else " (typical: not a worst case)"),
-        f"  derating: {report.derating}",
-    ]
-    if fixed:
-        lines.append("  throughout: " + ", ".join(
-            f"{a} {format_quantity(report.envelope[a][0], _DIMS[a])}" for a in fixed))
-    lines.append("")
     bases: list[str] = []
     rows = []
     for r in report.rows:
@@ -73,13 +62,31 @@ def check_report(report) -> str:
         ])
     header = ["part", "quantity", "worst", f"where ({', '.join(varying)})", "design limit",
               "absolute limit", "margin", "status", "basis"]
-    lines.append(aligned_table(header, rows, right=[False, False, True, False, True, True, True,
-                                                    False, False], indent="  "))
+    lines = [aligned_table(header, rows, right=[False, False, True, False, True, True, True,
+                                                 False, False], indent="  ")]
     lines.append("  margin: kelvin for temperatures, % of the design limit otherwise")
     lines.append("")
     lines.append("  basis of each design limit:")
     for k, b in enumerate(bases, start=1):
         lines.extend(_wrap(f"[{k}] {b}", "    "))
+    return lines
+
+
+def check_report(report) -> str:
+    """The text report of a :class:`~lossbudget.limits.LimitReport`."""
+    fixed = [a for a, values in report.envelope.items() if len(values) == 1]
+    lines = [
+        f"{report.design_name}: limits over the operating envelope",
+        f"  corner: {report.corner}-case part values"
+        + (" (max resistances, drops, charges and leakage; min capacitance, inductance and "
+           "saturation current)" if report.corner == "worst" else " (typical: not a worst case)"),
+        f"  derating: {report.derating}",
+    ]
+    if fixed:
+        lines.append("  throughout: " + ", ".join(
+            f"{a} {format_quantity(report.envelope[a][0], _DIMS[a])}" for a in fixed))
+    lines.append("")
+    lines.extend(limit_table(report))
     notes = [(r.part, r.quantity, r.note) for r in report.rows if r.note]
     if notes:
         lines.append("  notes:")
@@ -102,12 +109,19 @@ def check_report(report) -> str:
 @click.option(
     "--derating",
     type=click.Choice(["none", "moderate", "conservative", "custom"]),
-    help="Derating profile [-]; default the design's limits.derating. The design's own "
-    "[limits.margins] rows override the rows they name.",
+    help="Derating profile [-]; default the design's limits.derating. none: the absolute "
+    "ratings; moderate, conservative: the built-in tables (each row names its document); "
+    "custom: the design's [limits.margins] rows, moderate for the rows they do not name. A "
+    "named profile ignores the design's [limits.margins].",
 )
 @click.option("--strict", is_flag=True, help="Exit 1 on a caution too, not only on a fail.")
+@click.option(
+    "--chart",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Also write the margin chart (one bar per limit row) to this .png, .svg or .pdf.",
+)
 @reports_bad_input
-def check(design: Path, derating: str | None, strict: bool) -> None:
+def check(design: Path, derating: str | None, strict: bool, chart: Path | None) -> None:
     """Check every part's limits over the operating envelope at worst-case part values.
 
     Input voltage x output voltage x load up to rated x ambient, each part's worst point
@@ -116,7 +130,13 @@ def check(design: Path, derating: str | None, strict: bool) -> None:
     """
     from lossbudget.limits import check_limits
 
+    if chart is not None and chart.suffix.lower() not in (".png", ".svg", ".pdf"):
+        raise BadInput(f"--chart: expected a .png, .svg or .pdf file name, got {str(chart)!r}")
     report = check_limits(read_design(design), derating=derating, corner="worst")
     click.echo(check_report(report))
+    if chart is not None:
+        from lossbudget.output.plots import margin_chart
+
+        click.echo(f"  margin chart: {margin_chart(report, chart)}")
     bad = ("fail", "caution") if strict else ("fail",)
     raise click.exceptions.Exit(EXIT_LIMIT_FAILED if report.worst_status in bad else EXIT_OK)

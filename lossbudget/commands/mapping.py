@@ -20,6 +20,7 @@ import click
 import numpy as np
 
 from lossbudget.cautions import CAUTIONS
+from lossbudget.commands.checking import limit_table
 from lossbudget.commands.common import (
     BadInput,
     design_argument,
@@ -43,6 +44,7 @@ FILE_NAMES = {
     "efficiency curves": "efficiency_curves",
     "loss breakdown": "loss_breakdown",
     "temperatures": "temperatures",
+    "loss bars": "loss_bars",
 }
 
 
@@ -170,6 +172,84 @@ def _write_csv(frame, path: Path) -> Path:
     return path
 
 
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ExactRows:
+    """The per-input-voltage figures' rows, solved at the design's exact input voltages.
+
+    ``nominal``: min, nominal and max input voltage × the map's loads at the map's ambient,
+    typical part values. ``hot``: the same rows at the maximum ambient with worst-case part
+    values; ``hot_vin`` is the one of them with the least temperature margin to the design
+    limits after derating.
+    """
+
+    vins: tuple[float, ...]
+    nominal: object
+    hot: object
+    hot_vin: float
+    hot_what: str
+    design_limits: dict
+
+    @classmethod
+    def solve(cls, design: Design, *, load: np.ndarray, ambient: float | None) -> ExactRows:
+        from lossbudget.sweep import sweep_rows
+
+        op = design.operating
+        vins = np.unique([op.vin.min, op.vin.nom, op.vin.max])
+        limits = {part: value for part, (value, _) in temperature_design_limits(design).items()}
+        nominal = sweep_rows(design, vin=vins, load=load, ambient=ambient)
+        hot = sweep_rows(design, vin=vins, load=load, ambient=op.ambient.max, corner="worst")
+        parts = [p for p in limits if p in hot.temperatures]
+        with np.errstate(invalid="ignore"):
+            excess = np.array([hot.temperatures[p] - limits[p] for p in parts])  # part, vin, load
+            closest = np.nanmax(excess, axis=(0, 2), initial=-np.inf)
+        # the row with the most unsolved points (runaway) first, then the least margin
+        unsolved = np.count_nonzero(hot.flagged, axis=1)
+        row = int(np.lexsort((closest, unsolved))[-1])
+        what = "hot corner|least temperature margin of min/nom/max, unsolved points first" if (
+            vins.size > 1) else (
+            "hot corner"
+        )
+        return cls(
+            vins=tuple(float(v) for v in vins),
+            nominal=nominal,
+            hot=hot,
+            hot_vin=float(vins[row]),
+            hot_what=what,
+            design_limits=limits,
+        )
+
+
+def mechanism_bars(design: Design, path: Path, *, ambient: float | None) -> Path:
+    """Every loss mechanism at rated load: nominal point and worst case, as bars.
+
+    Nominal: nominal input voltage, the map's ambient, typical part values. Worst case: the
+    maximum ambient with worst-case part values at the input voltage (min, nom or max) of
+    the highest total loss.
+    """
+    from lossbudget.output import plots
+    from lossbudget.solver import solve
+
+    op = design.operating
+    amb = op.ambient.nom if ambient is None else float(ambient)
+    nominal = solve(design, vin=op.vin.nom, load_fraction=1.0, ambient=amb)
+    vins = np.unique([op.vin.min, op.vin.nom, op.vin.max])
+    hot = solve(design, vin=vins, load_fraction=1.0, ambient=op.ambient.max, corner="worst")
+    total = np.where(hot.flagged, np.inf, hot.total_loss)  # an unsolved one is the worst
+    vin_worst = float(vins[int(np.argmax(total))])
+    worst = solve(design, vin=vin_worst, load_fraction=1.0, ambient=op.ambient.max,
+                  corner="worst")
+    rated = format_quantity(op.iout_rated, "current")
+    return plots.mechanism_bars(
+        nominal,
+        worst,
+        path,
+        nominal_what=f"nominal: vin {_v(op.vin.nom)}, {rated}, ambient "
+        f"{_degc(amb)}, typical parts",
+        worst_what=f"worst case: vin {_v(vin_worst)} (highest loss of min/nom/max), {rated}, "
+        f"ambient {_degc(op.ambient.max)}, worst-case parts",
+    )
+
+
 def run_map(
     design: Design,
     *,
@@ -206,14 +286,12 @@ def run_map(
         )
     else:
         notes.append("efficiency map skipped: it needs 2 or more input voltages and loads")
+    exact = ExactRows.solve(design, load=load, ambient=ambient)
     files.append(
         (
             "efficiency curves",
             plots.efficiency_curves(
-                budget,
-                target["efficiency curves"],
-                vins=[op.vin.min, op.vin.nom, op.vin.max] if vin.size > 3 else None,
-                rated_load=rated,
+                exact.nominal, target["efficiency curves"], vins=exact.vins, rated_load=rated
             ),
         )
     )
@@ -221,7 +299,7 @@ def run_map(
         (
             "loss breakdown",
             plots.loss_breakdown(
-                budget, target["loss breakdown"], vin=op.vin.nom, rated_load=rated
+                exact.nominal, target["loss breakdown"], vin=op.vin.nom, rated_load=rated
             ),
         )
     )
@@ -229,17 +307,21 @@ def run_map(
         (
             "temperatures",
             plots.temperature_curves(
-                budget,
+                exact.nominal,
                 target["temperatures"],
                 vin=op.vin.nom,
                 rated_load=rated,
-                design_limits={
-                    part: value
-                    for part, (value, _) in temperature_design_limits(design).items()
-                },
+                design_limits=exact.design_limits,
+                hot=exact.hot,
+                hot_vin=exact.hot_vin,
+                hot_what=exact.hot_what,
+                what="nominal corner"
+                if ambient is None or ambient == op.ambient.nom
+                else "the map's ambient",
             ),
         )
     )
+    files.append(("loss bars", mechanism_bars(design, target["loss bars"], ambient=ambient)))
     files.append(("point table", _write_csv(budget.point_table(), out / "points.csv")))
     if summary.points <= LONG_TABLE_POINTS or long_table:
         files.append(("loss table", _write_csv(budget.loss_table(), out / "losses.csv")))
@@ -266,6 +348,10 @@ def _v(x: float) -> str:
     return format_quantity(x, "voltage")
 
 
+def _degc(x: float) -> str:
+    return format_quantity(x, "temperature").replace("degC", "°C")
+
+
 def _a(x: float) -> str:
     return format_quantity(x, "current")
 
@@ -290,10 +376,9 @@ def map_report(design: Design, run: MapRun, *, cautions: bool = True, files: boo
         )
     else:
         lines.append("  no point of the map could be solved")
-    flagged = f"{s.flagged_points} flagged"
-    if s.flagged_reasons:
-        flagged += " (" + "; ".join(f"{n}: {r}" for r, n in s.flagged_reasons) + ")"
-    lines.append(f"  DCM at {s.dcm_points} of {s.points} points; {flagged}")
+    lines.append(f"  DCM at {s.dcm_points} of {s.points} points; {s.flagged_points} flagged"
+                 + (", by kind of reason:" if s.flagged_reasons else ""))
+    lines.extend(_wrap(f"{n:>5} points: {r}", "    ") for r, n in s.flagged_reasons)
     lines.append("")
     at = (
         "at rated load"
@@ -428,46 +513,6 @@ def map_command(
     click.echo(map_report(d, run))
 
 
-_AXIS_DIMENSIONS = {
-    "vin": "voltage",
-    "vout": "voltage",
-    "load": "current",
-    "ambient": "temperature",
-    "fsw": "frequency",
-}
-
-
-def _limit_table(report) -> str:
-    rows = []
-    for r in report.rows:
-        where = ", ".join(
-            f"{k} {format_quantity(v, _AXIS_DIMENSIONS.get(k, 'number'), digits=3)}"
-            for k, v in r.where.items()
-        )
-        margin = (
-            f"{r.margin * 100:.1f} %"
-            if r.margin_unit == "fraction"
-            else f"{r.margin:.3g} {r.margin_unit}"
-        )
-        rows.append(
-            (
-                r.part,
-                r.quantity,
-                f"{r.worst:.4g} {r.unit}",
-                where,
-                f"{r.design_limit:.4g}",
-                f"{r.absolute_limit:.4g}",
-                margin,
-                r.status,
-            )
-        )
-    return aligned_table(
-        ("part", "limit", "worst", "where", "design limit", "absolute", "margin", "status"),
-        rows,
-        indent="  ",
-    )
-
-
 @click.command("demo")
 @click.option(
     "--out",
@@ -481,6 +526,7 @@ def demo_command(out: Path) -> None:
     """The whole job on the embedded demo design (a warehouse cart's motor-bus boost):
     the breakdown at the nominal point, the map with its plots and tables, the limit check
     and the workbook."""
+    from lossbudget.output import plots
     from lossbudget.solver import solve
 
     source = importlib.resources.files("lossbudget") / "data" / "demo.toml"
@@ -514,7 +560,8 @@ def demo_command(out: Path) -> None:
             f"== limit check ({report.corner} part values, derating "
             f"{report.derating}): worst status {report.worst_status} =="
         )
-        click.echo(_limit_table(report))
+        click.echo("\n".join(limit_table(report)))
+        files.append(("margin chart", plots.margin_chart(report, out / "margins.png")))
     try:
         from lossbudget.output.workbook import write_workbook
     except ImportError:

@@ -19,6 +19,21 @@ from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
 
+def _diverging(budget) -> list[str]:
+    """The last iteration's temperatures of a point that ran away (none where it solved)."""
+    last = {n: float(np.ravel(t)[0]) for n, t in budget.diverging_temperatures.items()}
+    if not last or not all(np.isfinite(v) for v in last.values()):
+        return []
+    limits = budget.temperature_limits
+    rows = [[n, f"{t:.1f}", "" if limits.get(n) is None else f"{limits[n]:g}",
+             "past its limit" if limits.get(n) is not None and t > limits[n] else ""]
+            for n, t in last.items()]
+    return ["  temperatures at the last iteration of the coupled solve: DIVERGING, not a "
+            "solution",
+            aligned_table(["node", "last iteration (degC)", "limit (degC)", ""], rows,
+                          right=[False, True, True, False], indent="  "), ""]
+
+
 def point_report(budget) -> str:
     """The text report of a one-point budget (loss table, figures, temperatures, stresses)."""
     c = {k: float(np.asarray(v).ravel()[0]) for k, v in budget.coords.items()}
@@ -32,6 +47,7 @@ def point_report(budget) -> str:
     if bool(np.asarray(budget.flagged).ravel()[0]):
         lines.append(f"  not solved: {np.asarray(budget.reason).ravel()[0]}")
         lines.append("")
+        lines.extend(_diverging(budget))
         lines.extend(f"  caution: {text}" for text in CAUTIONS)
         return "\n".join(lines)
     eff = float(np.asarray(budget.efficiency).ravel()[0])
@@ -111,12 +127,14 @@ def point_report(budget) -> str:
         srows.append(row)
     lines.append(
         aligned_table(
-            ["part", "I avg (A)", "I rms (A)", "I pk (A)", "V pk (V)", "B pk (T)", "dB pp (T)"],
+            ["part", "I avg (A/part)", "I rms (A/part)", "I pk (A/part)", "V pk (V)",
+             "B pk (T)", "dB pp (T)"],
             srows,
             right=[False] + [True] * 6,
             indent="  ",
         )
     )
+    lines.append("  currents per part: a capacitor bank's (or parallel devices') current / count")
     missing = budget.not_modelled
     if missing:
         lines.append("")

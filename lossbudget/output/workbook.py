@@ -204,9 +204,10 @@ def write_workbook(path: str | os.PathLike, *, budget: Budget, report: Any = Non
         Weighted efficiencies (:func:`lossbudget.sweep.weighted_efficiency`) for the summary.
     design : Design, optional
         The design the budget was solved for: the inputs sheet lists every resolved
-        parameter, and the summary the nominal point (the grid point nearest the nominal
-        input voltage and the rated load). Without it the inputs sheet holds the defaults
-        the provenance names.
+        parameter, the summary the nominal point and the charts the nominal input voltage's
+        loss breakdown (both solved at exactly the nominal input voltage), and the thermal
+        sheet the design limits after derating and the thermal network. Without it the
+        inputs sheet holds the defaults the provenance names.
 
     Returns
     -------
@@ -224,9 +225,12 @@ def write_workbook(path: str | os.PathLike, *, budget: Budget, report: Any = Non
     -----
     Sheets: ``Summary``, ``Losses`` (the loss table, auto-filter), ``Map`` (efficiency and
     total loss over input voltage down and load across, colour scales), ``Charts`` (efficiency
-    versus load per input voltage; loss by component at one input voltage, stacked), ``Thermal``
-    (every node's temperature per point, its rated maximum and margin), ``Stresses``, ``Points``
-    and ``Inputs``. Numbers keep full precision; number formats only set what is shown.
+    versus load at the design's min, nominal and max input voltage, solved exactly (the map's
+    rows without a design); loss by component at one input voltage, stacked), ``Thermal``
+    (every node's temperature per point, its design limit after derating and its rated
+    maximum with both margins; the thermal network beside), ``Stresses`` (with the operating
+    axes), ``Points`` and ``Inputs``. Numbers keep full precision (the map's axis labels: 4
+    significant digits, as the tables print them); number formats only set what is shown.
     Flagged points are blank cells with their reason in the ``reason`` column.
     """
     from openpyxl import Workbook
@@ -240,8 +244,10 @@ def write_workbook(path: str | os.PathLike, *, budget: Budget, report: Any = Non
     _table_sheet(sheets["Losses"], _with_reason(view.losses, view), what="loss table")
     grid = _map_sheet(sheets["Map"], view)
     _charts_sheet(sheets["Charts"], view, map_ws=sheets["Map"], grid=grid)
-    _table_sheet(sheets["Thermal"], _thermal_frame(view), what="thermal table")
-    _table_sheet(sheets["Stresses"], _with_reason(view.stresses, view), what="stress table")
+    _table_sheet(sheets["Thermal"], _thermal_frame(view), what="thermal table",
+                 beside=_network_rows(view))
+    _table_sheet(sheets["Stresses"], _with_axes(_with_reason(view.stresses, view), view),
+                 what="stress table")
     _table_sheet(sheets["Points"], view.points, what="point table")
     _inputs_sheet(sheets["Inputs"], view)
     try:
@@ -293,22 +299,36 @@ class _View:
         self.is_map = not pairs.duplicated().any()
         self.vins = np.unique(self.vin)
         self.loads = np.unique(self.load)
-        self.nominal = self._nominal_point()
+        self.nominal, self.exact_vins, self.exact_rows = self._nominal_solves()
 
-    def _nominal_point(self) -> int | None:
-        """Index of the grid point nearest the nominal input voltage and the rated load."""
+    def _nominal_solves(self):
+        """The nominal point and the design's input voltages' rows, solved exactly.
+
+        The nominal point is the design's nominal input voltage at the rated load; the rows
+        the minimum, nominal and maximum input voltage over the budget's loads (axis 0 input
+        voltage, axis 1 load); all at the budget's ambient (the design's nominal where the
+        budget spans several) and corner. None without a design.
+        """
         if self.design is None:
-            return None
+            return None, None, None
+        from lossbudget.solver import solve
+
         op = self.design.operating
-        vin = self.vins[np.argmin(np.abs(self.vins - op.vin.nom))]
-        at = np.flatnonzero(self.vin == vin)
-        return int(at[np.argmin(np.abs(self.load[at] - op.iout_rated))])
+        ambient = np.unique(np.ravel(self.budget.coords["ambient"]))
+        amb = float(ambient[0]) if ambient.size == 1 else op.ambient.nom
+        corner = self.budget.provenance.get("corner", "typ")
+        point = solve(self.design, vin=op.vin.nom, load=op.iout_rated, ambient=amb,
+                      corner=corner)
+        vins = np.unique([op.vin.min, op.vin.nom, op.vin.max])
+        rows = solve(self.design, vin=vins[:, np.newaxis], load=self.loads[np.newaxis, :],
+                     ambient=amb, corner=corner)
+        return point, vins, rows
 
     @property
     def chart_vin(self) -> float:
         """The input voltage of the loss-breakdown chart: the nominal, else the middle one."""
         if self.nominal is not None:
-            return float(self.vin[self.nominal])
+            return float(self.design.operating.vin.nom)
         return float(self.vins[(len(self.vins) - 1) // 2])
 
 
@@ -319,19 +339,63 @@ def _with_reason(frame, view: _View):
     return out
 
 
+def _design_limits(view: _View) -> dict[str, float]:
+    """Each part's temperature design limit after the design's derating [degC] (or none)."""
+    if view.design is None:
+        return {}
+    from lossbudget.limits import temperature_design_limits
+
+    return {p: v for p, (v, _) in temperature_design_limits(view.design).items()}
+
+
+def _with_axes(frame, view: _View):
+    """A table keyed by ``point_id`` with the point's operating axes after it."""
+    axes = view.points[["point_id", *AXIS_COLUMNS.values()]]
+    out = frame.merge(axes, on="point_id", how="left", sort=False)
+    columns = ["point_id", *AXIS_COLUMNS.values()]
+    return out[columns + [c for c in out.columns if c not in columns]]
+
+
+def _network_rows(view: _View) -> list[list[Any]]:
+    """The thermal network beside the thermal table: every path and link, and the node each
+    part's loss heats with what it is mounted on."""
+    if view.design is None:
+        return [["thermal network: not known (the workbook was written without the design)"]]
+    from lossbudget.solver import thermal_paths
+
+    d = view.design
+    rows: list[list[Any]] = [["thermal network (every path and link)"],
+                             ["from_node", "to_node", "rth_k_per_w", "design key"]]
+    for a, b, r, key in thermal_paths(d):
+        rows.append([a, b, float(f"{r:.6g}"), key])
+    rows.append([])
+    rows.append(["where each part sits"])
+    rows.append(["part", "node (its loss heats)", "mounted on", ""])
+    parts = [("switch", d.switch.thermal), ("rectifier", d.rectifier.thermal),
+             ("inductor", d.inductor.thermal), *((c.name, c.thermal) for c in d.capacitors)]
+    for name, th in parts:
+        rows.append([name, name, th.sink or "ambient (its own path)", ""])
+    return rows
+
+
 def _thermal_frame(view: _View):
-    """Every node's temperature per point, with its rated maximum and the margin to it."""
+    """Every node's temperature per point, against its design limit after derating (as the
+    limit check uses) and its rated maximum, with both margins."""
     import pandas as pd
 
     budget = view.budget
     axes = view.points[["point_id", *AXIS_COLUMNS.values()]]
+    derated = _design_limits(view)
     frames = []
     for node, temp in budget.temperatures.items():
         t = np.ravel(temp)
         limit = budget.temperature_limits.get(node, math.nan)
+        design_limit = derated.get(node, math.nan)
         frame = axes.copy()
         frame["node"] = node
         frame["t_degc"] = t
+        frame["t_design_limit_degc"] = design_limit
+        frame["margin_design_k"] = design_limit - t
         frame["t_max_degc"] = limit
         frame["margin_k"] = limit - t
         frame["reason"] = view.reason_by_point
@@ -452,8 +516,12 @@ def _fit_widths(frame) -> list[float]:
     return widths
 
 
-def _table_sheet(ws, frame, *, what: str) -> None:
-    """A table with a bold header row, frozen, auto-filtered, columns formatted by unit."""
+def _table_sheet(ws, frame, *, what: str, beside: list[list[Any]] | None = None) -> None:
+    """A table with a bold header row, frozen, auto-filtered, columns formatted by unit.
+
+    ``beside``: rows of a small second table written to the right of the first (one blank
+    column between), from the header row down.
+    """
     from openpyxl.utils import get_column_letter
 
     cells = _Cells(ws)
@@ -466,16 +534,41 @@ def _table_sheet(ws, frame, *, what: str) -> None:
         return
     columns = [str(c) for c in frame.columns]
     formats = [_number_format(c) for c in columns]
-    _set_widths(ws, _fit_widths(frame))
+    extra = [list(r) for r in (beside or [])]
+    widths = _fit_widths(frame)
+    if extra:
+        spans = [max((len(str(r[k])) for r in extra if len(r) > k and r[k] is not None),
+                     default=8) for k in range(max(len(r) for r in extra))]
+        widths += [3.0] + [float(min(w + 2, 40)) for w in spans]
+    _set_widths(ws, widths)
     _freeze(ws, "A2")
     numeric = [_is_number_column(frame[c]) for c in frame.columns]
-    ws.append([cells.header(c, right=r) for c, r in zip(columns, numeric, strict=True)])
-    for row in frame.itertuples(index=False, name=None):
-        ws.append([cells.value(v, f) for v, f in zip(row, formats, strict=True)])
+
+    def side(k: int) -> list[Any]:
+        if k >= len(extra) or not extra[k]:
+            return []
+        row = extra[k]
+        if len(row) == 1:
+            return [None, cells.section(row[0])]
+        if k > 0 and len(extra[k - 1]) == 1:
+            return [None, *(cells.header(v) for v in row)]
+        return [None, *(cells.value(v) for v in row)]
+
+    ws.append([cells.header(c, right=r) for c, r in zip(columns, numeric, strict=True)]
+              + side(0))
+    for k, row in enumerate(frame.itertuples(index=False, name=None), start=1):
+        ws.append([cells.value(v, f) for v, f in zip(row, formats, strict=True)] + side(k))
+    for k in range(len(frame) + 1, len(extra)):
+        ws.append([None] * len(columns) + side(k))
     ws.auto_filter.ref = f"A1:{get_column_letter(len(columns))}{len(frame) + 1}"
 
 
 # -- map --------------------------------------------------------------------------------------
+
+
+def _shown(x: float) -> float:
+    """An axis value as the tables print it (4 significant digits), not 16."""
+    return float(f"{float(x):.4g}")
 
 
 class _Grid:
@@ -523,9 +616,9 @@ def _map_sheet(ws, view: _View) -> _Grid | None:
     for column, label, values in blocks:
         fmt = _number_format(column)
         ws.append([cells.header(label),
-                   *(cells.header(float(x), right=True, fmt="0.000") for x in view.loads)])
+                   *(cells.header(_shown(x), right=True) for x in view.loads)])
         for vin, line in zip(view.vins, values, strict=True):
-            ws.append([cells.value(float(vin), "0.00"), *(cells.value(v, fmt) for v in line)])
+            ws.append([cells.value(_shown(vin)), *(cells.value(v, fmt) for v in line)])
         ref = (f"B{row + 1}:{get_column_letter(grid.last_col)}{row + len(view.vins)}")
         low, high = (SCALE_LOW, SCALE_HIGH) if column == "efficiency" else (SCALE_HIGH, SCALE_LOW)
         ws.conditional_formatting.add(ref, ColorScaleRule(
@@ -563,19 +656,40 @@ def _charts_sheet(ws, view: _View, *, map_ws, grid: _Grid | None) -> None:
         ws.append([cells.section("No charts: the budget is not a map over input voltage and "
                                  "load (see the Map sheet).")])
         return
+    from lossbudget.units import format_quantity
+
     components = view.budget.components
     vin = view.chart_vin
-    at = np.flatnonzero(view.vin == vin)
-    at = at[np.argsort(view.load[at], kind="stable")]
+    vin_text = format_quantity(vin, "voltage")
+    exact = view.exact_rows
+    if exact is not None:  # the nominal input voltage, solved exactly
+        loads = np.asarray(view.loads, dtype=float)
+        k_nom = int(np.flatnonzero(view.exact_vins == view.design.operating.vin.nom)[0])
+        per = {c: np.reshape(exact.loss(c), exact.shape)[k_nom] for c in components}
+    else:
+        at = np.flatnonzero(view.vin == vin)
+        at = at[np.argsort(view.load[at], kind="stable")]
+        loads = view.load[at]
+        per = {c: np.ravel(view.budget.loss(c))[at] for c in components}
     columns = ["load_a", *(f"{c}_w" for c in components)]
     _set_widths(ws, [max(len(c) + 2, 10) for c in columns])
     _freeze(ws, "A3")
-    ws.append([cells.section(f"Loss by component at vin = {vin:g} V (W)")])
+    ws.append([cells.section(f"Loss by component at vin = {vin_text} (W)")])
     ws.append([cells.header(c) for c in columns])
-    for k in at:
-        ws.append([cells.value(float(view.load[k]), "0.000"),
-                   *(cells.value(float(np.ravel(view.budget.loss(c))[k]), "0.000")
-                     for c in components)])
+    for k in range(loads.size):
+        ws.append([cells.value(float(loads[k]), "0.000"),
+                   *(cells.value(float(per[c][k]), "0.000") for c in components)])
+    eff_first = 3 + loads.size + 3  # the efficiency table: after a blank, a title, a header
+    if exact is not None:
+        ws.append([])
+        ws.append([cells.section("Efficiency at the design's input voltages (solved exactly)")])
+        ws.append([cells.header("load_a"),
+                   *(cells.header(f"efficiency at vin {format_quantity(v, 'voltage')}")
+                     for v in view.exact_vins)])
+        eff_exact = np.reshape(exact.efficiency, exact.shape)
+        for k in range(loads.size):
+            ws.append([cells.value(float(loads[k]), "0.000"),
+                       *(cells.value(float(e), "0.00%") for e in eff_exact[:, k])])
 
     anchor_col = _column_letter(len(columns) + 2)
     eff = ScatterChart()
@@ -588,14 +702,22 @@ def _charts_sheet(ws, view: _View, *, map_ws, grid: _Grid | None) -> None:
     eff.x_axis.delete = False
     eff.y_axis.delete = False
     eff.height, eff.width = 9.5, 17.0
-    x = Reference(map_ws, min_col=grid.first_col, max_col=grid.last_col, min_row=grid.header_row)
-    nominal_row = None
-    if view.nominal is not None:
-        nominal_row = int(np.searchsorted(view.vins, view.vin[view.nominal]))
-    for n, i in enumerate(_chart_rows(len(view.vins), nominal_row)):
-        row = grid.first_row + i
-        y = Reference(map_ws, min_col=grid.first_col, max_col=grid.last_col, min_row=row)
-        series = Series(y, x, title=f"vin {view.vins[i]:g} V")
+    if exact is not None:  # the exact rows of the table above
+        last = eff_first + loads.size - 1
+        x = Reference(ws, min_col=1, min_row=eff_first, max_row=last)
+        refs = [(Reference(ws, min_col=2 + i, min_row=eff_first, max_row=last), v)
+                for i, v in enumerate(view.exact_vins)]
+        shown = np.reshape(exact.efficiency, exact.shape)
+    else:  # the map's rows
+        x = Reference(map_ws, min_col=grid.first_col, max_col=grid.last_col,
+                      min_row=grid.header_row)
+        rows = _chart_rows(len(view.vins), None)
+        refs = [(Reference(map_ws, min_col=grid.first_col, max_col=grid.last_col,
+                           min_row=grid.first_row + i), view.vins[i]) for i in rows]
+        shown = _pivot(view, view.efficiency)[rows]
+    eff.y_axis.scaling.min, eff.y_axis.scaling.max = _efficiency_span(shown)
+    for n, (y, v) in enumerate(refs):
+        series = Series(y, x, title=f"vin {format_quantity(v, 'voltage')}")
         colour = SERIES_COLOURS[n % len(SERIES_COLOURS)]
         series.graphicalProperties.line.solidFill = colour
         series.graphicalProperties.line.width = 22000
@@ -612,7 +734,7 @@ def _charts_sheet(ws, view: _View, *, map_ws, grid: _Grid | None) -> None:
     bars.grouping = "stacked"
     bars.overlap = 100
     bars.gapWidth = 40
-    bars.title = f"Loss by component at vin = {vin:g} V"
+    bars.title = f"Loss by component at vin = {vin_text}"
     bars.x_axis.title = "load (A)"
     bars.y_axis.title = "loss (W)"
     bars.y_axis.number_format = "0.0"
@@ -620,7 +742,7 @@ def _charts_sheet(ws, view: _View, *, map_ws, grid: _Grid | None) -> None:
     bars.x_axis.delete = False
     bars.y_axis.delete = False
     bars.height, bars.width = 9.5, 17.0
-    first, last = 3, 2 + len(at)
+    first, last = 3, 2 + loads.size
     categories = Reference(ws, min_col=1, min_row=first, max_row=last)
     for k, component in enumerate(components):
         values = Reference(ws, min_col=2 + k, min_row=first, max_row=last)
@@ -630,6 +752,16 @@ def _charts_sheet(ws, view: _View, *, map_ws, grid: _Grid | None) -> None:
         bars.series.append(series)
     bars.set_categories(categories)
     ws.add_chart(bars, f"{anchor_col}21")
+
+
+def _efficiency_span(eff: np.ndarray) -> tuple[float, float]:
+    """The efficiency chart's axis: the data's span, widened to whole percent (at most 100 %)."""
+    finite = eff[np.isfinite(eff)]
+    if not finite.size:
+        return 0.0, 1.0
+    lo = math.floor(float(finite.min()) * 100.0 - 0.5) / 100.0
+    hi = min(1.0, math.ceil(float(finite.max()) * 100.0 + 0.2) / 100.0)
+    return max(0.0, lo), hi
 
 
 def _column_letter(k: int) -> str:
@@ -826,18 +958,20 @@ def _summary_sheet(ws, view: _View, *, report: Any, weighted: Sequence[Any] | No
     out.section("Key figures", "figure", "value", "unit", "vin_v", "load_a")
     summary = map_summary(budget)
     out.add(["peak efficiency", c.value(summary.peak_efficiency, pct), "",
-             c.value(summary.peak_vin, "0.00"), c.value(summary.peak_load, "0.000")])
+             c.value(_shown(summary.peak_vin)), c.value(_shown(summary.peak_load))])
     if view.nominal is not None:
-        k = view.nominal
-        where = [c.value(view.vin[k], "0.00"), c.value(view.load[k], "0.000")]
-        out.add(["efficiency at the nominal point", c.value(view.efficiency[k], pct), "",
-                 *where])
-        out.add(["total loss at the nominal point", c.value(view.total_loss[k], watt), "W",
-                 *where])
-        if view.reason_by_point[k]:
-            out.text("nominal point flagged", view.reason_by_point[k])
-        out.text("nominal point", "the grid point nearest the nominal input voltage and the "
-                 "rated load (no interpolation)")
+        nom = view.nominal
+        op = view.design.operating
+        where = [c.value(_shown(op.vin.nom)), c.value(_shown(op.iout_rated))]
+        out.add(["efficiency at the nominal point",
+                 c.value(float(np.ravel(nom.efficiency)[0]), pct), "", *where])
+        out.add(["total loss at the nominal point",
+                 c.value(float(np.ravel(nom.total_loss)[0]), watt), "W", *where])
+        reason = str(np.ravel(nom.reason)[0])
+        if reason:
+            out.text("nominal point flagged", reason)
+        out.text("nominal point", "solved at exactly the nominal input voltage and the rated "
+                 "load (at the map's ambient and part values), whatever the grid")
     else:
         out.text("nominal point", "not known: the workbook was written without the design")
 

@@ -8,7 +8,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from lossbudget.topologies.common import assemble, dcm_peak_fixed_point, limit_checks
+from lossbudget.topologies.common import (
+    assemble,
+    dcm_peak_fixed_point,
+    ideal_duty_limit,
+    limit_checks,
+)
 
 
 def steady_state(
@@ -117,6 +122,9 @@ def steady_state(
     lim, lim_reason = limit_checks(
         duty, fsw, max_duty=max_duty, min_on_time=min_on_time, min_off_time=min_off_time
     )
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ideal = vc / vin
+    by_duty, by_duty_reason = ideal_duty_limit(ideal, max_duty=max_duty, failing=no_root | lim)
     return assemble(
         duty=duty,
         d2=d2,
@@ -128,10 +136,11 @@ def steady_state(
         output_is_inductor=True,
         p_edge_input=p_edge,
         vin=vin,
-        flags=[no_load, below, no_root, no_mode, lim],
+        flags=[no_load, below, by_duty, no_root, no_mode, lim],
         reasons=[
             "no load: pulse skipping at zero load is not modelled",
             "buck cannot reach an output at or above its input",
+            by_duty_reason,
             "the conduction drops cannot deliver this load: no duty cycle reaches the output",
             "no consistent CCM or DCM solution with these drops",
             lim_reason,

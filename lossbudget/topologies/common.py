@@ -189,6 +189,47 @@ def limit_checks(duty, fsw, *, max_duty, min_on_time, min_off_time):
     return over | short_on | short_off, reason
 
 
+def ideal_duty_limit(ideal, *, max_duty, failing):
+    """Flag points whose lossless CCM duty alone exceeds the maximum duty.
+
+    Parameters
+    ----------
+    ideal : array_like
+        The lossless CCM duty cycle of the stage at the point (boost 1 − Vin/Vout, buck
+        Vout/Vin, inverting buck-boost |Vout|/(Vin + |Vout|)). [-]
+    max_duty : float
+        Controller's maximum duty cycle. [-]
+    failing : array_like
+        Points that have no solution for another reason (no duty cycle found, or a duty
+        limit passed): only these are blamed on the ideal duty. [-]
+
+    Returns
+    -------
+    tuple of ndarray
+        (flag, reason): boolean and string arrays; the reason names the ideal duty and the
+        limit. [-]
+
+    Notes
+    -----
+    Where the ideal duty passes ``max_duty`` no conduction drop is needed to explain the
+    failure, so the reason names the duty, not the drops. The CCM ratios are those of an
+    ideal converter (REFERENCES §8.1).
+
+    References
+    ----------
+    .. [1] R. W. Erickson and D. Maksimović, *Fundamentals of Power Electronics*, 2nd ed.,
+       2001, ch. 2 (CCM conversion ratios of the ideal boost, buck and buck-boost).
+    """
+    ideal = np.asarray(ideal, dtype=float)
+    flag = np.asarray(failing, dtype=bool) & (ideal > max_duty)
+    reason = np.full(ideal.shape, "", dtype=object)
+    if flag.any():
+        reason[flag] = np.char.mod(
+            f"the ideal duty %.3f (before any conduction drop) alone exceeds "
+            f"operating.max_duty {max_duty:g}", ideal[flag])
+    return flag, reason
+
+
 def dcm_peak_fixed_point(i0, update, *, iterations=40):
     """Iterate a contraction for the DCM peak current from an ideal start.
 
