@@ -38,6 +38,7 @@ KIND_QUANTITIES: dict[str, tuple[str, ...]] = MARGIN_QUANTITIES
 BASIS_STATUSES = ("published", "common practice", "from memory (verify)", "absolute rating")
 
 # The envelope grid: load fractions of the rated output current, points per axis.
+VARIANT_BLOCK_POINTS = 250_000  # operating points per sweep of the variants' envelope check
 LOAD_FRACTIONS = (0.02, 0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0)
 VIN_POINTS = 7
 REFINE_TOLERANCE = 0.01  # of each axis's span (load: of the rated current)
@@ -956,7 +957,12 @@ def _variant_limits(variants, *, derating: str | None, corner: Corner) -> Varian
     w_limit = np.full(n, "", dtype=object)
     w_margin = np.full(n, np.nan)
     w_unit = np.full(n, "", dtype=object)
-    for members in variants.groups():  # structure groups, each one vectorised sweep
+    grid_points = int(np.prod([x.size for x in axes.values()]))
+    block = max(1, VARIANT_BLOCK_POINTS // grid_points)
+    # structure groups, each one vectorised sweep over blocks of its variants (a block of
+    # variants × the envelope is a few hundred thousand points, so memory stays bounded)
+    blocks = [g[s:s + block] for g in variants.groups() for s in range(0, g.size, block)]
+    for members in blocks:
         sub = subset(variants, members)
         sd = stacked_design(sub, np.arange(members.size))
         b = sweep(sub, corner=corner, **axes)

@@ -238,3 +238,18 @@ def test_cli_compare_bad_parts_file(tmp_path):
     assert 'greenhouse_parts.toml: inductor[0].l: expected inductance (H), got "22 uF"' \
         in result.output
     assert not (tmp_path / "out").exists()
+
+
+def test_variant_limit_check_is_the_same_in_blocks(monkeypatch):
+    # memory is bounded by checking blocks of variants; the result must not depend on it
+    import pandas as pd
+
+    from lossbudget import limits
+
+    v = vm.variants(GROW, parts=GROW_PARTS)
+    whole = lb.check_limits(v)
+    monkeypatch.setattr(limits, "VARIANT_BLOCK_POINTS", 2000)  # a few variants a block
+    blocks = lb.check_limits(v)
+    np.testing.assert_array_equal(whole.worst_status, blocks.worst_status)
+    np.testing.assert_array_equal(whole.worst_limit, blocks.worst_limit)
+    pd.testing.assert_frame_equal(whole.table, blocks.table)
