@@ -94,6 +94,9 @@ def validate(design: Path) -> None:
     """Check a design file and print every resolved parameter with its unit.
 
     Defaults that were applied are listed after the parameters; warnings go to stderr.
+    Every quantity must lie inside its dimension's stated range (README, "Ranges"; for
+    example resistances from 1e-06 to 1e+09 ohm, absolute temperatures from -250 to 1000
+    degC), counts of parallel parts at most 1,000.
     """
     d = read_design(design)
     click.echo(f"{d.name} ({d.source}): valid")

@@ -24,11 +24,12 @@ from lossbudget.errors import DesignError
 from lossbudget.plausible import far_outside
 from lossbudget.units import (
     GLOSSARY,
+    check_range,
+    echo_value,
     format_quantity,
     glossary_dimension,
     parse_quantity,
     printable,
-    quote_text,
 )
 
 Topology = Literal["boost", "buck", "buck-boost"]
@@ -59,6 +60,16 @@ MARGIN_QUANTITIES: dict[str, tuple[str, ...]] = {
 }
 RESERVED_NAMES = ("switch", "rectifier", "inductor", "driver", "controller", "ambient")
 T_REF_DEFAULT = 25.0
+INTEGER_MAXIMA: dict[str, tuple[int, str]] = {
+    "count": (1000, "identical parts in parallel on one stage"),
+    "turns": (10_000, "turns on one core"),
+    "layers": (100, "winding layers on one core"),
+}
+"""Largest accepted whole number per key, with the reason stated in the error message."""
+CT_MAX = 100.0
+"""Largest magnitude of a core temperature-factor coefficient (core.ct)."""
+RAC_RDC_MAX = 1000.0
+"""Largest measured AC-to-DC resistance ratio of a winding (winding.rac_rdc)."""
 
 
 # --------------------------------------------------------------------------------------------
@@ -410,6 +421,10 @@ class _Reader:
         self.resolved: list[tuple[str, str]] = []
         self.defaults: list[tuple[str, str]] = []
         self.warnings: list[str] = []
+        # sinks and links whose resistance was given but refused: already reported, so the
+        # paths through them are not reported missing a second time
+        self.refused_sinks: set[str] = set()
+        self.refused_links: list[tuple[str, str]] = []
 
     def problem(self, path: str, message: str) -> None:
         self.problems.append(printable(f"{self.source}: {path or '(top level)'}: {message}"))
@@ -458,6 +473,7 @@ class _Reader:
         dim = glossary_dimension(dim_key or path)
         try:
             value = parse_quantity(raw, dim, where=f"{self.source}: {path}")
+            check_range(value, dim, where=f"{self.source}: {path}", raw=raw)
         except DesignError as exc:
             self.problems.extend(exc.problems)
             return None
@@ -497,8 +513,12 @@ class _Reader:
         if isinstance(raw, bool) or not isinstance(raw, int):
             self.problem(_join(path, key), f"expected a whole number, got {_show(raw)}")
             return None
-        if raw < minimum:
-            self.problem(_join(path, key), f"expected a whole number >= {minimum}, got {raw}")
+        maximum, why = INTEGER_MAXIMA.get(key, (None, ""))
+        if raw < minimum or (maximum is not None and raw > maximum):
+            upto = f" and <= {maximum:,} ({why})" if maximum is not None else ""
+            self.problem(
+                _join(path, key), f"expected a whole number >= {minimum}{upto}, got {_show(raw)}"
+            )
             return None
         self.resolved.append((_join(path, key), str(raw)))
         return raw
@@ -538,6 +558,12 @@ class _Reader:
         raw = table[key]
         if not isinstance(raw, str) or not raw.strip():
             self.problem(_join(path, key), f"expected a non-empty string, got {_show(raw)}")
+            return None
+        if not raw.isprintable():
+            self.problem(
+                _join(path, key),
+                f"expected a name without control characters (tab, newline, ...), got {_show(raw)}",
+            )
             return None
         self.resolved.append((_join(path, key), raw))
         return raw
@@ -741,13 +767,11 @@ def _join(path: str, key: Any) -> str:
 
 
 def _show(raw: Any) -> str:
-    if isinstance(raw, str):
-        return quote_text(raw)
     if isinstance(raw, dict):
         return "a table"
     if isinstance(raw, list):
         return "a list"
-    return repr(raw)
+    return echo_value(raw)  # strings quoted; every echo cut to about 60 characters
 
 
 # --------------------------------------------------------------------------------------------
@@ -777,11 +801,13 @@ def _thermal(rd: _Reader, raw: Any, path: str, *, semiconductor: bool) -> PartTh
             "a datasheet theta-JA describes the JEDEC test board (JESD51-2), not this "
             "board; used as a path to ambient all the same",
         )
-    if sink is not None and all(vals[k] is None for k in ("rth_jc", "rth_jb")):
+    # the paths are judged on the keys given: a value refused above is reported once, not
+    # again as a missing path
+    if sink is not None and all(k not in tab for k in ("rth_jc", "rth_jb")):
         rd.problem(path, "expected rth_jc or rth_jb for the path to the sink")
-    if sink is None and vals["rth_ha"] is None and vals["rth_ja"] is None:
+    if "sink" not in tab and "rth_ha" not in tab and "rth_ja" not in tab:
         rd.problem(path, "no path to ambient: give sink (with rth_jc or rth_jb), rth_ha or rth_ja")
-    if vals["rth_cs"] is not None and vals["rth_jc"] is None:
+    if "rth_cs" in tab and "rth_jc" not in tab:
         rd.problem(_join(path, "rth_cs"), "expected rth_jc beside rth_cs")
     return PartThermal(**vals, sink=sink)
 
@@ -1256,6 +1282,8 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
     if "i_sat" in tab:
         got = rd.curve(tab["i_sat"], "inductor.i_sat", letter="i", worse="min")
         i_sat = got[0] if got else None
+        if i_sat is not None and not _i_sat_stays_positive(rd, i_sat):
+            i_sat = None
     t_max = rd.required(tab, "t_max", path)
     core = _core(rd, tab["core"]) if "core" in tab else None
     winding = _winding(rd, tab["winding"]) if "winding" in tab else None
@@ -1281,6 +1309,37 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
         winding=winding,
         thermal=thermal,
     )
+
+
+T_HOTTEST = 300.0
+"""Hottest node temperature the coupled solve accepts before it flags runaway. [degC]"""
+
+
+def _i_sat_stays_positive(rd: _Reader, curve: Curve) -> bool:
+    """Refuse an i_sat curve whose last segment, continued hot, reaches 0 A below 300 degC.
+
+    Above its hottest point the saturation current follows the last segment's slope (the
+    limit check's rule); a curve that reaches zero inside the temperatures a solved point can
+    have (up to the runaway ceiling) would make every hotter point a division by zero.
+    """
+    if len(curve.t) < 2:
+        return True
+    ok = True
+    for name, values in (("typ", curve.typ), ("min", curve.worst)):
+        slope = (values[-1] - values[-2]) / (curve.t[-1] - curve.t[-2])
+        if slope >= 0:
+            continue
+        t_zero = curve.t[-1] - values[-1] / slope
+        if t_zero <= T_HOTTEST:
+            rd.problem(
+                "inductor.i_sat",
+                f"expected a saturation current that stays above 0 A up to {T_HOTTEST:g} degC "
+                f"along its last segment; the {name} points reach 0 A at {t_zero:.4g} degC "
+                "(give a point at a higher temperature or check the points)",
+            )
+            ok = False
+            break
+    return ok
 
 
 def _resistance_at(rd: _Reader, raw: Any, path: str, *, dim_key: str) -> tuple[Value, float] | None:
@@ -1322,13 +1381,24 @@ def _core(rd: _Reader, raw: Any) -> Core | None:
     beta = rd.number(tab, "beta", path)
     b_sat = rd.optional(tab, "b_sat", path)
     units = rd.choice(tab, "k_units", path, ("W/m3-Hz-T", "mW/cm3-kHz-mT"), default="W/m3-Hz-T")
+    # the exponents' ranges first: the unit conversion below raises 1e3 to the power beta
+    if alpha is not None and not 1.0 <= alpha <= 3.0:
+        rd.problem("inductor.core.alpha", f"expected a Steinmetz alpha in [1, 3], got {alpha:g}")
+        alpha = None
+    if beta is not None and not 1.0 <= beta <= 4.0:
+        rd.problem("inductor.core.beta", f"expected a Steinmetz beta in [1, 4], got {beta:g}")
+        beta = None
     if k is not None and alpha is not None and beta is not None and units == "mW/cm3-kHz-mT":
         k = k * 1e3 * 1e-3**alpha * 1e3**beta
         rd.resolved.append(("inductor.core.k (SI, W/m3 Hz T)", f"{k:.6g}"))
-    if alpha is not None and not 1.0 <= alpha <= 3.0:
-        rd.problem("inductor.core.alpha", f"expected a Steinmetz alpha in [1, 3], got {alpha:g}")
-    if beta is not None and not 1.0 <= beta <= 4.0:
-        rd.problem("inductor.core.beta", f"expected a Steinmetz beta in [1, 4], got {beta:g}")
+    if k is not None and not 1e-12 <= k <= 1e12:
+        # k (SI) is the loss density in W/m3 at 1 Hz and 1 T; outside this span the loss
+        # density at any real point underflows or overflows a float with alpha, beta above
+        rd.problem(
+            "inductor.core.k",
+            f"expected a Steinmetz k from 1e-12 to 1e12 in SI units (W/m3 at 1 Hz, 1 T), got {k:g}",
+        )
+        k = None
     ct = None
     if "ct" in tab:
         c = tab["ct"]
@@ -1341,6 +1411,15 @@ def _core(rd: _Reader, raw: Any) -> Core | None:
             rd.problem(
                 "inductor.core.ct",
                 f"expected three finite numbers [ct0, ct1, ct2], got {_show(c)}",
+            )
+        elif any(abs(x) > CT_MAX for x in c):
+            # the factor is normalised near 1 at its reference temperature (ferrite fits are of
+            # order 1, 1e-2 /K and 1e-4 /K2); beyond this the loss overflows before it means
+            # anything
+            rd.problem(
+                "inductor.core.ct",
+                f"expected coefficients of magnitude at most {CT_MAX:g} (a factor near 1 at "
+                f"the reference temperature), got {_show(c)}",
             )
         else:
             ct = (float(c[0]), float(c[1]), float(c[2]))
@@ -1402,8 +1481,12 @@ def _winding(rd: _Reader, raw: Any) -> Winding | None:
         )
         por = None
     rac = rd.number(tab, "rac_rdc", path)
-    if rac is not None and rac < 1:
-        rd.problem("inductor.winding.rac_rdc", f"expected Rac/Rdc >= 1, got {rac:g}")
+    if rac is not None and not 1 <= rac <= RAC_RDC_MAX:
+        rd.problem(
+            "inductor.winding.rac_rdc",
+            f"expected Rac/Rdc from 1 to {RAC_RDC_MAX:g} (a measured winding at its switching "
+            f"frequency), got {rac:g}",
+        )
         rac = None
     litz = tab.get("litz", False)
     if not isinstance(litz, bool):
@@ -1584,6 +1667,8 @@ def _thermal_block(rd: _Reader, raw: Any) -> tuple[tuple[Sink, ...], tuple[Link,
             continue
         name = rd.text(st, "name", p)
         rth = rd.optional(st, "rth_to_ambient", p, dim_key="thermal.sink.rth_to_ambient")
+        if name is not None and "rth_to_ambient" in st and rth is None:
+            rd.refused_sinks.add(name)
         if name in RESERVED_NAMES:
             rd.problem(_join(p, "name"), f"{name!r} is reserved; choose another name")
         elif name is not None:
@@ -1608,6 +1693,8 @@ def _thermal_block(rd: _Reader, raw: Any) -> tuple[tuple[Sink, ...], tuple[Link,
         rth = rd.quantity(lt["rth"], _join(p, "rth"), dim_key="thermal.link.rth")
         if rth is not None:
             links.append(Link(between=(b[0], b[1]), rth=rth))
+        else:
+            rd.refused_links.append((b[0], b[1]))
     return tuple(sinks), tuple(links)
 
 
@@ -1628,13 +1715,14 @@ def _check_thermal_paths(
                     f"thermal.link[{n}].between",
                     f"no sink named {s!r} (sinks: {', '.join(sorted(known)) or 'none'})",
                 )
-    # sinks reach ambient directly or through links
-    reach = {s.name for s in sinks if s.rth_to_ambient is not None}
+    # sinks reach ambient directly or through links; a refused resistance (already reported)
+    # counts as a path here, so one error is reported once, not again for every part on it
+    reach = {s.name for s in sinks if s.rth_to_ambient is not None} | rd.refused_sinks
+    pairs = [link.between for link in links] + rd.refused_links
     changed = True
     while changed:
         changed = False
-        for link in links:
-            a, b = link.between
+        for a, b in pairs:
             if (a in reach) != (b in reach) and a in known and b in known:
                 reach |= {a, b}
                 changed = True

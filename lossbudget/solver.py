@@ -31,6 +31,15 @@ N_HARMONICS = 24
 CHUNK = 25_000
 INNER_STEPS = 4
 INNER_STEPS_THERMAL = 2
+INNER_STEPS_MAX = 60
+BALANCE_TOL = 3e-4
+"""The inner passes of a full evaluation go on past INNER_STEPS (up to INNER_STEPS_MAX) where
+the power the stage was solved with and the power its losses then draw differ by more than this
+fraction of the input power (under a third of BALANCE_FLAG: the shipped designs need no extra
+pass, a 4-ohm input fuse needs a few)."""
+BALANCE_FLAG = 1e-3
+"""A solved point whose Vin·I_in and Pout + every loss still differ by more than this fraction
+is flagged not_converged with both figures."""
 THERMAL_TOL = 0.01
 CEILING = 300.0
 ESR_FLOOR = 1e-6
@@ -345,6 +354,17 @@ class _Evaluation:
     source_power: np.ndarray
     extrapolated: np.ndarray
     reverse_current: np.ndarray
+    notes: np.ndarray  # per point: what is extrapolated or clipped ("" where nothing is)
+    starved: np.ndarray  # the input resistor cannot pass the power the stage draws
+
+
+def _note(notes: np.ndarray, mask, text: str) -> np.ndarray:
+    """Append ``text`` to the per-point notes where ``mask`` holds."""
+    mask = np.broadcast_to(np.asarray(mask, dtype=bool), notes.shape)
+    if not mask.any():
+        return notes
+    joined = np.where(notes == "", text, notes + "; " + text) if notes.size else notes
+    return np.where(mask, joined, notes).astype(object)
 
 
 def _supply_voltage(ctx: _Context, vin_eff, vc):
@@ -486,9 +506,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
         zero["rectifier", "turn_off"] = pick(
             reversed_,
             pick(e_off_r == 0, "capacitive turn-off (slow node)", ""),
-            pick(
-                dcm, "zero-current turn-off (diode emulation)", "body diode clamps the turn-off"
-            ),
+            pick(dcm, "zero-current turn-off (diode emulation)", "body diode clamps the turn-off"),
         )
         out["rectifier", "turn_on"] = np.zeros_like(v)
         zero["rectifier", "turn_on"] = np.full(np.shape(v), "zero-voltage turn-on", dtype=object)
@@ -498,9 +516,7 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
                 v, v_residual=v_r, a_self=a_op, a_opp=a_sw, ae_self=ae_op, ae_opp=ae_sw
             )
             out["rectifier", "coss"] = e_sync * fsw
-            zero["rectifier", "coss"] = pick(
-                e_sync == 0, "node swings within the dead time", ""
-            )
+            zero["rectifier", "coss"] = pick(e_sync == 0, "node swings within the dead time", "")
         if t_dead is not None and rc.vsd_v is not None:
             vsd_r = dio.linear_in_temperature(t_r, t_points=rc.vsd_t, values=rc.vsd_v)
             t1 = mos.body_diode_conduction_time(t_dead, i=i_pk, q_node=q_node)
@@ -604,13 +620,28 @@ def _evaluate(
     t_sw, t_r, t_l = temps["switch"], temps["rectifier"], temps["inductor"]
     rds_sw = mos.rds_on_at(t_sw, t_points=sw.t_points, r_points=sw.r_points) / sw.count
     extrap = mos.rds_on_extrapolated(t_sw, t_points=sw.t_points)
+    notes = _note(
+        np.full(shape, "", dtype=object),
+        extrap,
+        "switch Rds(on) extrapolated above its hottest point",
+    )
     if ctx.sync:
         r_rc = mos.rds_on_at(t_r, t_points=rc.t_points, r_points=rc.r_points) / rc.count
-        extrap = extrap | mos.rds_on_extrapolated(t_r, t_points=rc.t_points)
+        extrap_rc = mos.rds_on_extrapolated(t_r, t_points=rc.t_points)
+        notes = _note(notes, extrap_rc, "rectifier Rds(on) extrapolated above its hottest point")
+        extrap = extrap | extrap_rc
         vf0 = np.zeros(shape)
     else:
         r_rc = dio.linear_in_temperature(t_r, t_points=rc.rd_t, values=rc.rd_v) / rc.count
         vf0 = dio.linear_in_temperature(t_r, t_points=rc.vf0_t, values=rc.vf0_v)
+        # a line through the points continued until it is clipped at zero: flagged
+        for name, t_pts, values, got in (
+            ("Vf0", rc.vf0_t, rc.vf0_v, vf0),
+            ("Rd", rc.rd_t, rc.rd_v, r_rc),
+        ):
+            clipped = (np.shape(t_pts)[-1] > 1) & (got <= 0.0) & (np.max(values, axis=-1) > 0)
+            notes = _note(notes, clipped, f"rectifier {name} clipped at 0 outside its points")
+            extrap = extrap | clipped
     ind = d.inductor
     dcr = mag.copper_resistance_at(ctx.dcr, t_l, t_ref=ind.dcr_at) / ind.count
     rp = ctx.r_pos
@@ -704,9 +735,12 @@ def _evaluate(
 
     slow = slow_first = thermal = None
     steps = INNER_STEPS if full else INNER_STEPS_THERMAL
-    for step in range(steps):
+    last = steps - 1  # index of the final pass; a full evaluation extends it until balanced
+    step = -1
+    while step < last:
+        step += 1
         # what only the reported point needs (reasons, ripple, stresses): the last full pass
-        report = full and step == steps - 1
+        report = full and step == last
         st = stage_fn(
             vin=vin_eff,
             vc=vc,
@@ -729,8 +763,22 @@ def _evaluate(
         edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, reasons=report)
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
         # an infeasible point keeps its first, finite inputs so that its reason stays the
-        # stage's own (NaN would turn every check false)
-        vin_next = np.where(np.isfinite(i_in_total), g.vin - rp["input"] * i_in_total, g.vin)
+        # stage's own (NaN would turn every check false). Behind an input resistor R the
+        # stage draws P = vin_eff·I_in; vin_eff = vin - R·P/vin_eff has the root
+        # (vin + sqrt(vin² - 4RP))/2, which the update takes so that a large R converges in
+        # a few passes (the plain vin - R·I_in update has a loop gain of R·I_in/vin_eff); with
+        # 4RP > vin² no input voltage delivers the power: the point is left to the stage.
+        r_in = rp["input"]
+        starved = np.zeros(shape, dtype=bool)
+        if np.any(r_in > 0):
+            p_stage = vin_eff * i_in_total
+            disc = g.vin**2 - 4.0 * r_in * p_stage
+            with np.errstate(invalid="ignore"):
+                root = 0.5 * (g.vin + np.sqrt(np.maximum(disc, 0.0)))
+            vin_next = np.where(np.isfinite(i_in_total), root, g.vin)
+            starved = np.isfinite(disc) & (disc < 0)
+        else:
+            vin_next = g.vin
         # the slow losses (harmonics) once per thermal step; again on the reported pass of the
         # final evaluation, so its stresses and rows belong to the reported operating point
         if step == 0 or slow is None or report:
@@ -750,8 +798,23 @@ def _evaluate(
             + r_l * st.i_l.ripple_square()
         )
         p_new = sum(edge.values()) + sum(slow["losses"].values()) + p_ripple
+        p_next = np.where(np.isfinite(p_new), p_new, 0.0)
+        if report and not probe and last < INNER_STEPS_MAX - 1:
+            # the stage of this pass was solved with p_extra and vin_eff; its losses draw
+            # p_new at vin_next: where they differ, pass again (the energy balance
+            # Vin·I_in = Pout + every loss holds only where they agree). A point that agrees
+            # keeps this pass's inputs, so the next pass repeats it exactly: its result does
+            # not depend on the other points of the grid.
+            with np.errstate(invalid="ignore"):
+                gap = np.abs(p_new - p_extra) + np.abs(vin_next - vin_eff) * np.abs(i_in_total)
+                scale = np.abs(vin_eff * i_in_total)
+                open_ = np.isfinite(gap) & (gap > BALANCE_TOL * scale)
+            if np.any(open_):
+                last += 1
+                vin_next = np.where(open_, vin_next, vin_eff)
+                p_next = np.where(open_, p_next, p_extra)
         vin_eff = vin_next
-        p_extra = np.where(np.isfinite(p_new), p_new, 0.0)
+        p_extra = p_next
     losses, zeros, i_in_total, node_power = tally(st, edge, zero, dead, slow, vin_eff)
     if not full:
         return node_power
@@ -762,7 +825,10 @@ def _evaluate(
         else 0.0
     )
     stresses = _stresses(ctx, st, vc=vc, vin_eff=vin_eff, slow=slow)
-    extrap = extrap | slow["extrapolated"]
+    notes = _note(notes, slow["extrapolated"], "core-loss fit extrapolated outside its fit_range")
+    for _key, text in slow["notes"]:
+        notes = _note(notes, text[0], text[1])
+    extrap = extrap | slow["extrapolated"] | slow["clipped"]
     return _Evaluation(
         losses=losses,
         zero=zeros,
@@ -773,6 +839,8 @@ def _evaluate(
         source_power=source_power,
         extrapolated=extrap,
         reverse_current=~st.dcm & (st.i_valley < 0),
+        notes=notes,
+        starved=starved,
     )
 
 
@@ -785,6 +853,8 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
     zero: dict[tuple[str, str], np.ndarray] = {}
     shape = np.shape(g.vin)
     extrap = np.zeros(shape, dtype=bool)
+    clipped = np.zeros(shape, dtype=bool)
+    notes: list[tuple[str, tuple[np.ndarray, str]]] = []
     core = ind.core
     di_part = (st.i_pk - st.i_valley) / ind.count
     ipk_part = st.i_pk / ind.count
@@ -800,9 +870,23 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
         )
         pv = np.where(st.dcm, pv_dcm, pv_ccm)
         if core.ct is not None:
-            pv = pv * mag.core_loss_temperature_factor(
+            factor = mag.core_loss_temperature_factor(
                 t_l, ct0=core.ct[0], ct1=core.ct[1], ct2=core.ct[2]
             )
+            # a fitted polynomial taken where it goes negative: no negative loss, a flag
+            negative = factor < 0
+            clipped = clipped | negative
+            notes.append(
+                (
+                    "ct",
+                    (
+                        negative,
+                        "core temperature factor ct negative at this winding temperature, "
+                        "clipped at 0",
+                    ),
+                )
+            )
+            pv = pv * np.maximum(factor, 0.0)
         out["inductor", "core"] = pv * core.ve * ind.count
         if core.fit_f is not None:
             extrap = extrap | (g.fsw < core.fit_f[0]) | (g.fsw > core.fit_f[1])
@@ -871,10 +955,22 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
     )
     out.update(cin)
     out.update(cout)
+    # an ESR line through its points continued below the floor outside them: flagged
+    for k, c in enumerate(ctx.caps):
+        t_pts, r_pts = ctx.cap_esr[k]
+        if np.shape(t_pts)[-1] > 1:
+            r_at = dio.linear_in_temperature(temps[c.name], t_points=t_pts, values=r_pts)
+            low = r_at <= ESR_FLOOR
+            clipped = clipped | low
+            notes.append(
+                (c.name, (low, f"{c.name} ESR clipped at {ESR_FLOOR:g} ohm outside its points"))
+            )
     return {
         "losses": out,
         "zero": zero,
         "extrapolated": extrap,
+        "clipped": clipped,
+        "notes": notes,
         "vout_pp": ripple if ripple is not None else np.full(shape, np.nan),
         "cap_rms": {**rms_in, **rms_out},
         "delta_b": delta_b,
@@ -1398,6 +1494,13 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     late = good & ev.stage.infeasible
     infeasible |= late
     reason = np.where(late, ev.stage.reason, reason)
+    starved = good & ~late & ev.starved
+    infeasible |= starved
+    reason = np.where(
+        starved,
+        "the input resistors cannot pass the power the stage draws (4·R·P > Vin²)",
+        reason,
+    )
     flags = {"infeasible": infeasible, "runaway": runaway, "not_converged": not_conv}
     # keep of a chunk only what the budget reports, so that a large map fits in memory: the
     # stage's duty, D2 and mode without its waveforms, each zero reason as references to a
@@ -1476,9 +1579,13 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         reason,
     )
     bad = flags["infeasible"] | flags["runaway"] | flags["not_converged"]
+    source_power = cat(lambda p: p.ev.source_power)
+    bad, reason = _guard(flags, bad, reason, losses, temps, stresses, source_power, cat)
     nan = np.where(bad, np.nan, 1.0)
     flags["reverse_current"] = cat(lambda p: p.ev.reverse_current) & ~bad
     flags["extrapolated"] = cat(lambda p: p.ev.extrapolated) & ~bad
+    notes = cat(lambda p: p.ev.notes)
+    reason = np.where(bad, reason, np.where(flags["extrapolated"], notes, ""))
     provenance = _provenance(ctx, corner)
     return Budget(
         design_name=d.name,
@@ -1495,14 +1602,61 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         dcm=np.concatenate([s.dcm for s in st]).reshape(shape) & ~bad,
         vout_pp=cat(lambda p: p.ev.vout_pp) * nan,
         flags=flags,
-        reason=np.where(bad, reason, ""),
+        reason=reason,
         provenance=provenance,
-        source_input_power=cat(lambda p: p.ev.source_power) * nan,
+        source_input_power=source_power * nan,
         loop_gain=cat(lambda p: p.loop_gain) * nan,
         diverging_temperatures={
             node: cat(lambda p, j=j: p.diverging[:, j]) for j, node in enumerate(ctx.nodes)
         },
     )
+
+
+def _guard(flags, bad, reason, losses, temps, stresses, source_power, cat):
+    """Flag the solved points whose numbers cannot be reported as they stand.
+
+    A computed loss that is negative or not finite, a temperature or stress that is not
+    finite, and a power balance that does not close (Vin·I_in against Pout + every loss off by
+    more than BALANCE_FLAG) each flag the point with the reason, instead of printing a made-up
+    number. Returns the updated mask of NaN points and the reasons.
+    """
+    good = ~bad
+    infeasible = np.zeros_like(bad)
+    why = np.full(bad.shape, "", dtype=object)
+    with np.errstate(invalid="ignore"):
+        for (comp, mech), value in losses.items():
+            value = np.broadcast_to(value, bad.shape)
+            neg = good & np.isfinite(value) & (value < 0) & (why == "")
+            why = np.where(neg, f"the model gives a negative {comp} {mech} loss here", why)
+            inf = good & ~np.isfinite(value) & (why == "")
+            why = np.where(inf, f"the model gives no finite {comp} {mech} loss here", why)
+        for name, table in (("temperature", temps), ("stress", stresses)):
+            for key, value in table.items():
+                value = np.broadcast_to(value, bad.shape)
+                inf = good & ~np.isfinite(value) & (why == "")
+                label = key if isinstance(key, str) else " ".join(key)
+                why = np.where(inf, f"no finite {label} {name} at this point", why)
+        infeasible = why != ""
+        total = sum(np.broadcast_to(v, bad.shape) for v in losses.values())
+        pin = cat(lambda p: p.pout) + total
+        rel = np.abs(source_power - pin) / np.abs(pin)
+        off = good & ~infeasible & ~(rel <= BALANCE_FLAG)
+    flags["infeasible"] = flags["infeasible"] | infeasible
+    reason = np.where(infeasible, why, reason)
+    if np.any(off):
+        idx = np.flatnonzero(off.ravel())
+        texts = np.full(bad.size, "", dtype=object)
+        src, p_in = source_power.ravel(), pin.ravel()
+        # text for the flagged points only
+        texts[idx] = [
+            f"the power balance does not close: Vin·I_in {src[k]:.4g} W against Pout + every "
+            f"loss {p_in[k]:.4g} W (an approximation of the stage model"
+            " fails at such extreme values)"
+            for k in idx
+        ]
+        flags["not_converged"] = flags["not_converged"] | off
+        reason = np.where(off, texts.reshape(bad.shape), reason)
+    return bad | infeasible | off, reason
 
 
 def _provenance(ctx: _Context, corner: Corner) -> dict:

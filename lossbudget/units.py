@@ -50,7 +50,11 @@ class Unit:
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Dimension:
-    """A physical dimension: its SI display unit, column suffix and accepted units."""
+    """A physical dimension: its SI display unit, column suffix and accepted units.
+
+    ``lo`` and ``hi`` bound the magnitude of a value (an absolute temperature itself, in
+    degC) that :func:`check_range` accepts.
+    """
 
     name: str
     si: str
@@ -58,6 +62,8 @@ class Dimension:
     units: tuple[Unit, ...] = field(default_factory=tuple)
     bare_ok: bool = True
     what: str = ""
+    lo: float = 0.0
+    hi: float = math.inf
 
 
 _OHMS = (
@@ -69,20 +75,28 @@ _OHMS = (
 DIMENSIONS: dict[str, Dimension] = {
     d.name: d
     for d in (
-        Dimension(name="voltage", si="V", suffix="v", units=(Unit(symbol="V"),)),
-        Dimension(name="current", si="A", suffix="a", units=(Unit(symbol="A"),)),
-        Dimension(name="resistance", si="ohm", suffix="ohm", units=_OHMS),
-        Dimension(name="inductance", si="H", suffix="h", units=(Unit(symbol="H"),)),
-        Dimension(name="capacitance", si="F", suffix="f", units=(Unit(symbol="F"),)),
-        Dimension(name="charge", si="C", suffix="c", units=(Unit(symbol="C"),)),
-        Dimension(name="energy", si="J", suffix="j", units=(Unit(symbol="J"),)),
-        Dimension(name="power", si="W", suffix="w", units=(Unit(symbol="W"),)),
-        Dimension(name="frequency", si="Hz", suffix="hz", units=(Unit(symbol="Hz"),)),
+        Dimension(name="voltage", si="V", suffix="v", units=(Unit(symbol="V"),), lo=1e-6, hi=1e5),
+        Dimension(name="current", si="A", suffix="a", units=(Unit(symbol="A"),), lo=1e-12, hi=1e5),
+        Dimension(name="resistance", si="ohm", suffix="ohm", units=_OHMS, lo=1e-6, hi=1e9),
+        Dimension(
+            name="inductance", si="H", suffix="h", units=(Unit(symbol="H"),), lo=1e-12, hi=10.0
+        ),
+        Dimension(
+            name="capacitance", si="F", suffix="f", units=(Unit(symbol="F"),), lo=1e-15, hi=100.0
+        ),
+        Dimension(name="charge", si="C", suffix="c", units=(Unit(symbol="C"),), lo=1e-18, hi=1.0),
+        Dimension(name="energy", si="J", suffix="j", units=(Unit(symbol="J"),), lo=1e-15, hi=1e3),
+        Dimension(name="power", si="W", suffix="w", units=(Unit(symbol="W"),), lo=1e-12, hi=1e7),
+        Dimension(
+            name="frequency", si="Hz", suffix="hz", units=(Unit(symbol="Hz"),), lo=1.0, hi=1e10
+        ),
         Dimension(
             name="time",
             si="s",
             suffix="s",
             units=(Unit(symbol="s"), Unit(symbol="h", scale=3600.0, prefixable=False)),
+            lo=1e-15,
+            hi=1e9,
         ),
         Dimension(
             name="duration",
@@ -93,6 +107,8 @@ DIMENSIONS: dict[str, Dimension] = {
                 Unit(symbol="s", scale=1 / 3600.0, prefixable=False),
             ),
             what="a duration in hours",
+            lo=1e-3,
+            hi=1e8,
         ),
         Dimension(
             name="temperature",
@@ -105,6 +121,8 @@ DIMENSIONS: dict[str, Dimension] = {
             ),
             bare_ok=False,
             what='an absolute temperature with its unit ("55 degC" or "328.15 K")',
+            lo=-250.0,
+            hi=1000.0,
         ),
         Dimension(
             name="temperature_difference",
@@ -112,27 +130,52 @@ DIMENSIONS: dict[str, Dimension] = {
             suffix="k",
             units=(Unit(symbol="K", prefixable=False),),
             what='a temperature difference in kelvin ("10 K")',
+            lo=1e-3,
+            hi=1e3,
         ),
         Dimension(
             name="thermal_resistance",
             si="K/W",
             suffix="k_per_w",
             units=(Unit(symbol="K/W", prefixable=False), Unit(symbol="degC/W", prefixable=False)),
+            lo=1e-6,
+            hi=1e5,
         ),
         Dimension(
             name="length",
             si="m",
             suffix="m",
             units=(Unit(symbol="m", centi=True),),
+            lo=1e-7,
+            hi=10.0,
         ),
         Dimension(
-            name="area", si="m2", suffix="m2", units=(Unit(symbol="m2", power=2, centi=True),)
+            name="area",
+            si="m2",
+            suffix="m2",
+            units=(Unit(symbol="m2", power=2, centi=True),),
+            lo=1e-14,
+            hi=1.0,
         ),
         Dimension(
-            name="volume", si="m3", suffix="m3", units=(Unit(symbol="m3", power=3, centi=True),)
+            name="volume",
+            si="m3",
+            suffix="m3",
+            units=(Unit(symbol="m3", power=3, centi=True),),
+            lo=1e-18,
+            hi=1.0,
         ),
-        Dimension(name="flux_density", si="T", suffix="t", units=(Unit(symbol="T"),)),
-        Dimension(name="voltage_tempco", si="V/K", suffix="v_per_k", units=(Unit(symbol="V/K"),)),
+        Dimension(
+            name="flux_density", si="T", suffix="t", units=(Unit(symbol="T"),), lo=1e-6, hi=100.0
+        ),
+        Dimension(
+            name="voltage_tempco",
+            si="V/K",
+            suffix="v_per_k",
+            units=(Unit(symbol="V/K"),),
+            lo=0.0,
+            hi=1.0,
+        ),
         Dimension(
             name="fraction",
             si="",
@@ -196,9 +239,33 @@ def printable(text: str) -> str:
     return "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
 
 
+ECHO_CHARS = 60
+"""Longest echo of a bad value in an error message; a longer one is cut with an ellipsis."""
+
+
 def quote_text(text: str) -> str:
-    """A string as an error message shows it: in double quotes, on one line."""
-    return f'"{printable(text)}"'
+    """A string as an error message shows it: in double quotes, on one line, cut to about
+    :data:`ECHO_CHARS` characters (with an ellipsis and the full length) when longer."""
+    shown = printable(text)
+    if len(shown) > ECHO_CHARS:
+        shown = f"{shown[: ECHO_CHARS - 1]}… ({len(text)} characters)"
+    return f'"{shown}"'
+
+
+def echo_value(value: object) -> str:
+    """A non-string value as an error message shows it: its repr, cut like :func:`quote_text`."""
+    if isinstance(value, str):
+        return quote_text(value)
+    text = repr(value)
+    return text if len(text) <= ECHO_CHARS else f"{text[: ECHO_CHARS - 1]}…"
+
+
+def _bounds_text(dim: Dimension, dimension: str) -> str:
+    """The stated range of a dimension, for an error message."""
+    if dimension == "temperature":
+        return f"from {dim.lo:g} degC to {dim.hi:g} degC"
+    unit = f" {dim.si}" if dim.si else ""
+    return f"from {dim.lo:g}{unit} to {dim.hi:g}{unit} in magnitude"
 
 
 def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
@@ -221,20 +288,23 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
     Raises
     ------
     DesignError
-        When the value is not a number, has no or the wrong unit, or is not finite.
+        When the value is not a number, has no or the wrong unit, or is not finite. The
+        stated range of the dimension is :func:`check_range`'s (the loader and the command
+        line call both).
     """
     dim = DIMENSIONS[dimension]
     expected = dimension_text(dim)
+    finite = f"a finite {expected[2:]}" if expected.startswith("a ") else f"a finite {expected}"
     prefix = f"{where}: " if where else ""
     if isinstance(value, bool) or not isinstance(value, int | float | str):
-        raise DesignError(f"{prefix}expected {expected}, got {value!r}")
+        raise DesignError(f"{prefix}expected {expected}, got {echo_value(value)}")
     if isinstance(value, int | float):
         if not dim.bare_ok:
             raise DesignError(f"{prefix}expected {expected}, got bare number {value!r}")
         try:
             number = float(value)
         except OverflowError:  # an integer beyond the float range (from a dict source)
-            raise DesignError(f"{prefix}expected a finite {expected}, got {value!r}") from None
+            raise DesignError(f"{prefix}expected {finite}, got {echo_value(value)}") from None
     else:
         match = _NUMBER.match(value)
         if match is None:
@@ -251,7 +321,58 @@ def parse_quantity(value: object, dimension: str, *, where: str = "") -> float:
         elif not dim.bare_ok:
             raise DesignError(f"{prefix}expected {expected}, got {quote_text(value)}")
     if not math.isfinite(number):
-        raise DesignError(f"{prefix}expected a finite {expected}, got {value!r}")
+        raise DesignError(f"{prefix}expected {finite}, got {echo_value(value)}")
+    return number
+
+
+def range_rules() -> list[tuple[str, str]]:
+    """Each bounded dimension with its stated range, as the README lists them."""
+    return [
+        (name.replace("_", " "), _bounds_text(dim, name))
+        for name, dim in DIMENSIONS.items()
+        if dim.lo > 0 or math.isfinite(dim.hi) or name == "temperature"
+    ]
+
+
+def check_range(number: float, dimension: str, *, where: str = "", raw: object = None) -> float:
+    """Refuse a parsed value outside its dimension's stated range; return it otherwise.
+
+    Parameters
+    ----------
+    number : float
+        The parsed value in SI units (absolute temperatures in degC).
+    dimension : str
+        A key of :data:`DIMENSIONS`.
+    where : str
+        ``source: key.path`` (or the option) for the error message.
+    raw : object
+        The value as written, echoed in the message (the number when None).
+
+    Returns
+    -------
+    float
+        ``number``, unchanged.
+
+    Raises
+    ------
+    DesignError
+        When ``number`` lies outside ``Dimension.lo`` to ``Dimension.hi`` in magnitude (zero
+        passes: sign and zero rules are the key's own), or, for an absolute temperature,
+        outside -250 degC to 1000 degC. The ranges are wider than any part of a board-level
+        DC-DC stage: they refuse values whose arithmetic would overflow, underflow or lose
+        its meaning (1e-320 ohm, 1e308 H, points at 0 K), not unusual designs.
+    """
+    dim = DIMENSIONS[dimension]
+    if dimension == "temperature":
+        out_of_range = not dim.lo <= number <= dim.hi
+    else:
+        out_of_range = number != 0 and not dim.lo <= abs(number) <= dim.hi
+    if out_of_range:
+        prefix = f"{where}: " if where else ""
+        raise DesignError(
+            f"{prefix}expected {dimension_text(dim)} {_bounds_text(dim, dimension)}, "
+            f"got {echo_value(number if raw is None else raw)}"
+        )
     return number
 
 

@@ -8,6 +8,7 @@ stderr and exit status 2; a traceback only with ``--debug``. Kept apart from
 from __future__ import annotations
 
 import functools
+import math
 import sys
 from collections.abc import Callable
 from pathlib import Path
@@ -17,7 +18,7 @@ import click
 
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
-from lossbudget.units import parse_quantity
+from lossbudget.units import DIMENSIONS, check_range, dimension_text, parse_quantity, quote_text
 
 EXIT_OK = 0
 EXIT_LIMIT_FAILED = 1
@@ -93,8 +94,15 @@ def read_design(path: Path) -> Design:
     return load_design(path)
 
 
-def quantity(text: str | None, dimension: str, option: str) -> float | None:
-    """Parse a command-line quantity ("24 V" or a bare SI number) or raise BadInput."""
+def quantity(
+    text: str | None, dimension: str, option: str, *, nonnegative: bool = False
+) -> float | None:
+    """Parse a command-line quantity ("24 V" or a bare SI number) or raise BadInput.
+
+    The value is range-checked like a design-file value: finite, inside the dimension's
+    stated range (:func:`lossbudget.units.check_range`), and above zero (at least zero with
+    ``nonnegative``; an absolute temperature only by its range). A sign is never dropped.
+    """
     if text is None:
         return None
     try:
@@ -102,6 +110,31 @@ def quantity(text: str | None, dimension: str, option: str) -> float | None:
     except ValueError:
         value = text
     try:
-        return parse_quantity(value, dimension, where=option)
+        number = parse_quantity(value, dimension, where=option)
+        check_range(number, dimension, where=option, raw=text)
     except ValueError as exc:
         raise BadInput(str(exc)) from None
+    if dimension != "temperature" and (number < 0 or (number == 0 and not nonnegative)):
+        bound = "at least 0" if nonnegative else "above 0"
+        raise BadInput(
+            f"{option}: expected {dimension_text(DIMENSIONS[dimension])} {bound}, "
+            f"got {quote_text(text)}"
+        )
+    return number
+
+
+LOAD_PCT_MAX = 1000.0
+"""Largest ``--load-pct`` accepted: ten times the rated current (beyond it, a typing slip)."""
+
+
+def load_percent(value: float | None, option: str = "--load-pct") -> float | None:
+    """A load in percent of rated from the command line, as a fraction; BadInput unless it
+    is finite, above 0 and at most :data:`LOAD_PCT_MAX`."""
+    if value is None:
+        return None
+    if not (math.isfinite(value) and 0 < value <= LOAD_PCT_MAX):
+        raise BadInput(
+            f"{option}: expected a load in percent of rated, above 0 and at most "
+            f"{LOAD_PCT_MAX:g}, got {value!r}"
+        )
+    return value / 100.0

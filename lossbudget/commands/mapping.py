@@ -53,7 +53,9 @@ FILE_NAMES = {
 # --------------------------------------------------------------------------------------------
 
 
-def parse_range(text: str, dimension: str, option: str) -> tuple[float, float, int]:
+def parse_range(
+    text: str, dimension: str, option: str, *, nonnegative: bool = False
+) -> tuple[float, float, int]:
     """Parse ``START:STOP:COUNT`` (bounds may carry units: "0.2 A:4 A:40").
 
     Raises :class:`~lossbudget.cli.BadInput` naming the option on any malformed part.
@@ -61,8 +63,8 @@ def parse_range(text: str, dimension: str, option: str) -> tuple[float, float, i
     parts = text.split(":")
     if len(parts) != 3:
         raise BadInput(f'{option}: expected START:STOP:COUNT (e.g. "18 V:32 V:15"), got "{text}"')
-    start = quantity(parts[0].strip(), dimension, f"{option} start")
-    stop = quantity(parts[1].strip(), dimension, f"{option} stop")
+    start = quantity(parts[0].strip(), dimension, f"{option} start", nonnegative=nonnegative)
+    stop = quantity(parts[1].strip(), dimension, f"{option} stop", nonnegative=nonnegative)
     try:
         count = int(parts[2].strip())
     except ValueError:
@@ -83,9 +85,9 @@ def _percent(text: str, option: str) -> tuple[float, float, int]:
         )
     bounds = []
     for part, name in zip(parts[:2], ("start", "stop"), strict=True):
-        value = quantity(part.strip(), "fraction", f"{option} {name}")
+        value = quantity(part.strip(), "fraction", f"{option} {name}", nonnegative=True)
         bounds.append(value * 100.0 if "%" in part else value)
-    _, _, count = parse_range(f"0:0:{parts[2]}", "fraction", option)
+    _, _, count = parse_range(f"0:0:{parts[2]}", "fraction", option, nonnegative=True)
     return bounds[0], bounds[1], count
 
 
@@ -120,7 +122,7 @@ def load_points(
     if load is not None:
         option, (start, stop, count), percent = (
             "--load",
-            parse_range(load, "current", "--load"),
+            parse_range(load, "current", "--load", nonnegative=True),
             False,
         )
     else:

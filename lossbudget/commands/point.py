@@ -11,6 +11,7 @@ from lossbudget.cautions import CAUTIONS
 from lossbudget.commands.common import (
     BadInput,
     design_argument,
+    load_percent,
     quantity,
     read_design,
     reports_bad_input,
@@ -141,7 +142,8 @@ def point_report(budget) -> str:
         lines.append("  not modelled (the key that would enable each):")
         lines.extend(f"    {c} {m}: {key}" for c, m, key in missing)
     if budget.flags["extrapolated"].ravel()[0]:
-        lines.append("  note: a temperature law or the core-loss fit is extrapolated here")
+        why = str(np.asarray(budget.reason).ravel()[0])
+        lines.append(f"  note: extrapolated or clipped here: {why or 'a temperature law'}")
     notes = budget.provenance.get("notes", [])
     if notes:
         lines.append("")
@@ -183,7 +185,7 @@ def point(design: Path, vin, load_, load_pct, ambient, fsw, corner) -> None:
         d,
         vin=quantity(vin, "voltage", "--vin") if vin is not None else op.vin.nom,
         load=quantity(load_, "current", "--load"),
-        load_fraction=None if load_pct is None else load_pct / 100.0,
+        load_fraction=load_percent(load_pct),
         ambient=quantity(ambient, "temperature", "--ambient"),
         fsw=quantity(fsw, "frequency", "--fsw"),
         corner=corner,

@@ -107,7 +107,9 @@ def steady_state(
 
         # DCM: L f I² − 2 Q B I − 2 Q A = 0
         lf = l * fsw
-        big_a = vc + vf0 - vin
+        # the gap charge (edge power drawn through the inductor) does not pass the diode: its
+        # forward drop acts on the output's share only, as in CCM (vf0·i_out is its loss)
+        big_a = vc + share * vf0 - vin
         big_b = 0.5 * (r_l + r_rect)
         ipk_d = (
             q * big_b + np.sqrt(np.maximum(q * q * big_b * big_b + 2.0 * lf * q * big_a, 0.0))
