@@ -6,11 +6,16 @@ usage errors) ends as one line per problem on stderr and exit status 2; a traceb
 only with ``--debug``. The heavy libraries (scipy, pandas, matplotlib, openpyxl) load inside
 the commands that need them, so ``lossbudget --help`` stays fast.
 
-Exit status: 0 done, 1 a limit check failed, 2 bad input, 3 an internal error (a bug).
+Exit status: 0 done, 1 a limit check failed, 2 bad input (or a file that cannot be read or
+written), 3 an internal error (a bug), 4 no point could be solved, 130 interrupted by SIGINT,
+143 stopped by SIGTERM (:data:`lossbudget.commands.common.EXIT_STATUSES`).
 """
 
 from __future__ import annotations
 
+import signal
+import sys
+import textwrap
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -21,13 +26,19 @@ from lossbudget import __version__
 from lossbudget.commands.common import (
     EXIT_BAD_INPUT,
     EXIT_INTERNAL,
+    EXIT_INTERRUPTED,
     EXIT_LIMIT_FAILED,
+    EXIT_NOTHING_SOLVED,
     EXIT_OK,
+    EXIT_STATUSES,
     PROG,
     BadInput,
+    Interrupted,
     design_argument,
+    interrupts_unwind,
     read_design,
     reports_bad_input,
+    restore_handlers,
 )
 from lossbudget.output.tables import aligned_table
 
@@ -35,6 +46,7 @@ __all__ = [
     "EXIT_BAD_INPUT",
     "EXIT_INTERNAL",
     "EXIT_LIMIT_FAILED",
+    "EXIT_NOTHING_SOLVED",
     "EXIT_OK",
     "PROG",
     "BadInput",
@@ -43,6 +55,13 @@ __all__ = [
     "read_design",
     "reports_bad_input",
 ]
+
+
+EXIT_EPILOG = "\b\nExit status:\n" + "\n".join(
+    textwrap.fill(text, width=78, initial_indent=f"  {code:>3}  ", subsequent_indent=" " * 7)
+    for code, text in EXIT_STATUSES
+)
+"""The exit statuses as the help of the group and of every command lists them."""
 
 
 class _Group(click.Group):
@@ -56,6 +75,22 @@ class _Group(click.Group):
 
     def invoke(self, ctx: click.Context) -> Any:
         return _one_line_usage(super().invoke, ctx)
+
+    def main(self, *args: Any, **kwargs: Any) -> Any:
+        """Run a command; SIGINT and SIGTERM unwind it (staged files removed) and exit 128 + n.
+
+        The signals raise :class:`~lossbudget.commands.common.Interrupted` rather than
+        KeyboardInterrupt, so that click does not turn them into its own status 1.
+        """
+        previous = interrupts_unwind()
+        try:
+            return super().main(*args, **kwargs)
+        except Interrupted as exc:
+            name = signal.Signals(exc.signum).name
+            click.echo(f"{PROG}: interrupted by {name}; no partial file is left", err=True)
+            sys.exit(EXIT_INTERRUPTED + exc.signum)
+        finally:
+            restore_handlers(previous)
 
 
 def _one_line_usage(call: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
@@ -72,10 +107,7 @@ def _one_line_usage(call: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
 @click.group(
     cls=_Group,
     context_settings={"help_option_names": ["-h", "--help"]},
-    epilog=(
-        "Exit status: 0 done; 1 a limit check failed; 2 bad input (design file, option or "
-        "path; one line per problem on stderr); 3 an internal error."
-    ),
+    epilog=EXIT_EPILOG,
 )
 @click.version_option(__version__, "--version", prog_name=PROG, message="%(prog)s %(version)s")
 @click.option("--debug", is_flag=True, help="Show the traceback of an error.")
@@ -131,3 +163,6 @@ main.add_command(export)
 from lossbudget.commands.comparing import compare_command  # noqa: E402
 
 main.add_command(compare_command)
+
+for _command in main.commands.values():
+    _command.epilog = _command.epilog or EXIT_EPILOG

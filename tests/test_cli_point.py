@@ -32,10 +32,12 @@ def test_point_load_percent_and_worst_corner():
     assert "load 2 A" in result.output
 
 
-def test_point_flagged_point_says_why():
+def test_point_flagged_point_says_why_and_exits_4():
+    # a boost cannot step 60 V down to its 48 V output (common practice: vout > vin)
     result = CliRunner().invoke(main, ["point", DEMO, "--vin", "60 V"])
-    assert result.exit_code == 0
-    assert "not solved" in result.output and "below its input" in result.output
+    assert result.exit_code == 4
+    assert "not solved" in result.stdout and "below its input" in result.stdout
+    assert result.stderr.strip().count("\n") == 0 and "could not be solved" in result.stderr
 
 
 def test_point_bad_quantity_is_one_line_exit_2():

@@ -116,11 +116,13 @@ def test_usage_errors_are_one_line_with_exit_2(args, text):
     assert text in lines[0]
 
 
-def test_debug_shows_the_traceback(tmp_path):
+def test_debug_shows_the_traceback_and_keeps_exit_2(tmp_path):
     path = write(tmp_path, "cart.toml", DEMO_TEXT.replace('fsw = "200 kHz"', 'fsw = "200 kHF"'))
     result = runner().invoke(main, ["--debug", "validate", str(path)])
-    assert isinstance(result.exception, lossbudget.DesignError)
-    assert "operating.fsw" in str(result.exception)
+    assert result.exit_code == 2
+    assert "Traceback (most recent call last)" in result.stderr
+    assert "lossbudget.errors.DesignError" in result.stderr
+    assert "operating.fsw" in result.stderr.strip().splitlines()[-1]
 
 
 def test_internal_error_is_one_line_with_exit_3(tmp_path, monkeypatch):
@@ -160,8 +162,21 @@ def test_help_names_the_exit_codes(flag):
     assert result.exit_code == 0
     text = " ".join(result.stdout.split())
     assert "validate" in text
-    assert "0 done; 1 a limit check failed; 2 bad input" in text
+    for status in ("0 done", "1 a limit check failed", "2 bad input", "3 an internal error",
+                   "4 no point could be solved", "130 interrupted by SIGINT",
+                   "143 stopped by SIGTERM"):
+        assert status in text
     assert "--debug" in text
+
+
+def test_readme_lists_every_exit_status():
+    from lossbudget.commands.common import EXIT_STATUSES
+
+    readme = (Path(__file__).parents[1] / "README.md").read_text(encoding="utf-8")
+    table = readme.split("## Exit status", 1)[1].split("\n## ", 1)[0]
+    listed = [int(line.split("|")[1]) for line in table.splitlines()
+              if line.startswith("| ") and line.split("|")[1].strip().isdigit()]
+    assert listed == [code for code, _ in EXIT_STATUSES]
 
 
 def test_command_help():

@@ -195,7 +195,7 @@ def test_cli_compare_writes_the_set(tmp_path):
     assert lines, text
     for name in ("candidates.xlsx", "pareto.png", "efficiency_best.png", "loss_vs_fsw.png"):
         assert (out / name).stat().st_size > 0
-    assert not list(out.glob(".*.part"))
+    assert not list(out.glob(".*.part")) and not list(out.glob(".lossbudget-*"))
     from openpyxl import load_workbook
 
     wb = load_workbook(out / "candidates.xlsx", read_only=True)

@@ -9,7 +9,9 @@ from __future__ import annotations
 
 import functools
 import math
+import signal
 import sys
+import traceback
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any, TypeVar
@@ -24,6 +26,21 @@ EXIT_OK = 0
 EXIT_LIMIT_FAILED = 1
 EXIT_BAD_INPUT = 2
 EXIT_INTERNAL = 3
+EXIT_NOTHING_SOLVED = 4
+EXIT_INTERRUPTED = 128  # plus the signal number: 130 for SIGINT, 143 for SIGTERM
+
+EXIT_STATUSES = (
+    (EXIT_OK, "done"),
+    (EXIT_LIMIT_FAILED, "a limit check failed (check)"),
+    (EXIT_BAD_INPUT, "bad input: a design file, an option or a path, a grid above the size "
+     "budget, or a file that cannot be read or written (one line each, naming the file)"),
+    (EXIT_INTERNAL, "an internal error (a bug: --debug shows the traceback)"),
+    (EXIT_NOTHING_SOLVED, "no point could be solved: an unsolved point, or a map or export "
+     "with every point flagged (the report and files still say why)"),
+    (EXIT_INTERRUPTED + 2, "interrupted by SIGINT (Ctrl-C), no partial file left"),
+    (EXIT_INTERRUPTED + 15, "stopped by SIGTERM, no partial file left"),
+)
+"""Every exit status of the command line and its meaning (the README and --help list them)."""
 
 PROG = "lossbudget"
 
@@ -37,6 +54,58 @@ class BadInput(click.ClickException):
 
     def show(self, file: Any = None) -> None:
         click.echo(f"{PROG}: {self.format_message()}", err=True)
+
+
+class Interrupted(BaseException):
+    """SIGINT or SIGTERM arrived: unwind (removing staged files) and exit 128 + signal."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _interrupt(signum: int, _frame: Any) -> None:
+    raise Interrupted(signum)
+
+
+def interrupts_unwind() -> dict[int, Any]:
+    """Make SIGINT and SIGTERM raise :class:`Interrupted`; return the previous handlers.
+
+    Only possible in the main thread; elsewhere nothing changes and ``{}`` is returned.
+    """
+    previous: dict[int, Any] = {}
+    for signum in (signal.SIGINT, getattr(signal, "SIGTERM", None)):
+        if signum is None:
+            continue
+        try:
+            previous[signum] = signal.signal(signum, _interrupt)
+        except ValueError:  # not the main thread
+            break
+    return previous
+
+
+def restore_handlers(previous: dict[int, Any]) -> None:
+    """Put back the handlers :func:`interrupts_unwind` replaced."""
+    for signum, handler in previous.items():
+        signal.signal(signum, handler)
+
+
+class NothingSolved(click.ClickException):
+    """No point of what was asked could be solved; exit status 4 (after the report)."""
+
+    exit_code = EXIT_NOTHING_SOLVED
+
+    def show(self, file: Any = None) -> None:
+        click.echo(f"{PROG}: {self.format_message()}", err=True)
+
+
+def nothing_solved(points: int, flagged: int) -> None:
+    """Raise :class:`NothingSolved` (exit 4) when every one of ``points`` is flagged."""
+    if points and flagged == points:
+        raise NothingSolved(
+            f"no point could be solved: all {points:,} flagged (the reasons are above "
+            "and in the tables)"
+        )
 
 
 def _debug() -> bool:
@@ -59,20 +128,27 @@ def reports_bad_input(func: F) -> F:
         except (click.ClickException, click.exceptions.Exit, click.Abort, BrokenPipeError):
             raise  # click reports these itself (a closed pipe ends quietly)
         except DesignError as exc:
-            if _debug():
-                raise
+            _traceback_if_debug()
             for line in exc.problems:
                 click.echo(line, err=True)
             sys.exit(EXIT_BAD_INPUT)
         except OSError as exc:
-            if _debug():
-                raise
+            _traceback_if_debug()
             name = exc.filename if exc.filename is not None else ""
             click.echo(f"{PROG}: {name}: {exc.strerror or exc}".replace(": : ", ": "), err=True)
             sys.exit(EXIT_BAD_INPUT)
+        except MemoryError:
+            _traceback_if_debug()
+            click.echo(
+                f"{PROG}: out of memory: the grid is too large for this machine (use fewer "
+                "points; nothing was written)",
+                err=True,
+            )
+            sys.exit(EXIT_BAD_INPUT)
         except Exception as exc:
+            _traceback_if_debug()
             if _debug():
-                raise
+                sys.exit(EXIT_INTERNAL)
             click.echo(
                 f"{PROG}: internal error ({type(exc).__name__}: {exc}); "
                 "run again with --debug for the traceback",
@@ -81,6 +157,12 @@ def reports_bad_input(func: F) -> F:
             sys.exit(EXIT_INTERNAL)
 
     return wrapper  # type: ignore[return-value]
+
+
+def _traceback_if_debug() -> None:
+    """With --debug, print the traceback of the exception being handled (the status stays)."""
+    if _debug():
+        traceback.print_exc(file=sys.stderr)
 
 
 design_argument = click.argument(

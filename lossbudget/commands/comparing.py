@@ -9,7 +9,13 @@ import click
 import numpy as np
 
 from lossbudget.cautions import CAUTIONS
-from lossbudget.commands.common import BadInput, design_argument, read_design, reports_bad_input
+from lossbudget.commands.common import (
+    BadInput,
+    design_argument,
+    nothing_solved,
+    read_design,
+    reports_bad_input,
+)
 from lossbudget.output.tables import aligned_table
 
 FORMAT_CHOICES = ("png", "svg", "pdf")
@@ -170,6 +176,7 @@ def compare_command(design: Path, parts: Path | None, vary: tuple[str, ...], obj
     click.echo("")
     for line in CAUTIONS:
         click.echo(f"  caution: {line}")
+    nothing_solved(len(frame), int(np.sum(~np.isfinite(frame["objective_loss"].to_numpy()))))
 
 
 def _sizes(vs) -> str:
@@ -197,7 +204,7 @@ def _write_outputs(vs, frame, optimum, *, out: Path, fmt: str, against: str) -> 
         save_figure,
         write_candidates_workbook,
     )
-    from lossbudget.output.files import atomic_paths
+    from lossbudget.output.files import output_set
     from lossbudget.solver import solve
 
     d = vs.base
@@ -219,11 +226,12 @@ def _write_outputs(vs, frame, optimum, *, out: Path, fmt: str, against: str) -> 
         chosen = [cands[k] for k in np.argsort(best_rank, kind="stable")[:BEST_CURVES]]
         figures[f"loss_vs_fsw.{fmt}"] = frequency_figure(
             frame, design_name=d.name, candidates=chosen)
-    out.mkdir(parents=True, exist_ok=True)
-    targets = [out / "candidates.xlsx", *(out / name for name in figures)]
-    with atomic_paths(targets) as temps:
-        write_candidates_workbook(temps[0], frame, design_name=d.name, optimum=optimum,
-                                  cautions=CAUTIONS)
-        for temp, target, fig in zip(temps[1:], targets[1:], figures.values(), strict=True):
-            save_figure(fig, temp, target)
-    return targets
+    written = []
+    with output_set(out, create=True) as files:
+        write_candidates_workbook(files.stage("candidates.xlsx"), frame, design_name=d.name,
+                                  optimum=optimum, cautions=CAUTIONS)
+        written.append(out / "candidates.xlsx")
+        for name, fig in figures.items():
+            save_figure(fig, files.stage(name), out / name)
+            written.append(out / name)
+    return written

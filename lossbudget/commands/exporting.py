@@ -19,11 +19,19 @@ from lossbudget.cautions import CAUTIONS
 from lossbudget.commands.common import (
     BadInput,
     design_argument,
+    nothing_solved,
     quantity,
     read_design,
     reports_bad_input,
 )
-from lossbudget.commands.mapping import _progress, grid_options, load_points, vin_axis
+from lossbudget.commands.mapping import (
+    LONG_TABLE_POINTS,
+    _progress,
+    grid_options,
+    load_points,
+    vin_axis,
+)
+from lossbudget.commands.sizing import check_size, max_points_option
 from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
@@ -64,6 +72,12 @@ def _span(values: np.ndarray, dimension: str) -> str:
     help="Check the limits over the design's envelope (worst-case part values) and "
     "show the rows on the workbook's summary sheet (.xlsx only).",
 )
+@click.option(
+    "--long-table",
+    is_flag=True,
+    help=f"Write the loss table (.csv, .json) even above {LONG_TABLE_POINTS:,} points.",
+)
+@max_points_option
 @reports_bad_input
 def export(
     design: Path,
@@ -75,6 +89,8 @@ def export(
     ambient,
     corner,
     with_limits,
+    long_table,
+    max_points,
 ) -> None:
     """Write the loss budget over input voltage × load as a workbook (.xlsx), CSV tables
     (.csv) or one JSON document (.json), chosen by the suffix of FILE."""
@@ -92,6 +108,8 @@ def export(
     load = load_points(d, load=load_range, load_pct=load_pct_range, log_load=log_load)
     amb = quantity(ambient, "temperature", "--ambient")
     check_target(output, suffixes=SUFFIXES)  # a folder that is missing fails before the solve
+    check_size(vin.size * load.size, output=suffix[1:], max_points=max_points,
+               shape=f"{vin.size:,} × {load.size:,}")
     budget = sweep_rows(
         d, vin=vin, load=load, ambient=amb, corner=corner, progress=_progress(vin.size * load.size)
     )
@@ -124,12 +142,21 @@ def export(
             )
         ]
     else:
-        written = write_tables(output, budget=budget)
+        points = vin.size * load.size
+        with_losses = long_table or points <= LONG_TABLE_POINTS
+        if not with_losses:
+            lines.append(
+                f"  loss table left out: {points:,} points is above {LONG_TABLE_POINTS:,} "
+                "(add --long-table to write it)"
+            )
+        written = write_tables(output, budget=budget, long_table=with_losses)
         names = (
             ("point table", "loss table", "stress table")
-            if suffix == ".csv"
-            else ("tables and provenance",)
+            if with_losses
+            else ("point table", "stress table")
         )
+        if suffix == ".json":
+            names = ("tables and provenance",)
         files = list(zip(names, written, strict=True))
     click.echo("\n".join(lines))
     click.echo("")
@@ -137,3 +164,4 @@ def export(
     click.echo("")
     for text in CAUTIONS:
         click.echo(textwrap.fill(f"caution: {text}", width=96, subsequent_indent="  "))
+    nothing_solved(int(np.size(budget.flagged)), flagged)

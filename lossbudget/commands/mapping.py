@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import importlib.resources
 import math
-import os
 import sys
 import textwrap
 from dataclasses import dataclass
@@ -24,19 +23,23 @@ from lossbudget.commands.checking import limit_table
 from lossbudget.commands.common import (
     BadInput,
     design_argument,
+    nothing_solved,
     quantity,
     read_design,
     reports_bad_input,
 )
 from lossbudget.commands.point import point_report
+from lossbudget.commands.sizing import check_size, max_points_option
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
 from lossbudget.limits import temperature_design_limits
-from lossbudget.output.files import atomic_paths
+from lossbudget.output.files import OutputSet, output_set
+from lossbudget.output.tablefiles import table_chunks, write_csv
 from lossbudget.output.tables import aligned_table
 from lossbudget.units import format_quantity
 
 LONG_TABLE_POINTS = 100_000
+MAX_AXIS_POINTS = 10_000_000  # an axis is built before the size budget is checked
 PROGRESS_POINTS = 20_000
 SUMMARY_ROWS = 8
 FILE_NAMES = {
@@ -72,6 +75,10 @@ def parse_range(
             f'{option}: expected an integer point count after the second ":", '
             f'got "{parts[2].strip()}"'
         ) from None
+    if count > MAX_AXIS_POINTS:
+        raise BadInput(
+            f"{option}: expected at most {MAX_AXIS_POINTS:,} points on one axis, got {count:,}"
+        )
     return float(start), float(stop), count
 
 
@@ -167,13 +174,6 @@ def _progress(total_points: int):
     return report
 
 
-def _write_csv(frame, path: Path) -> Path:
-    """Write a table as CSV atomically (a temporary file beside it, then a rename)."""
-    with atomic_paths([path]) as temps:
-        frame.to_csv(temps[0], index=False)
-    return path
-
-
 @dataclass(frozen=True, slots=True, kw_only=True)
 class ExactRows:
     """The per-input-voltage figures' rows, solved at the design's exact input voltages.
@@ -258,38 +258,40 @@ def run_map(
     vin: np.ndarray,
     load: np.ndarray,
     ambient: float | None,
-    out: Path,
+    files: OutputSet,
     fmt: str,
     long_table: bool,
 ) -> MapRun:
-    """Sweep, plot, tabulate and summarise a map into ``out``."""
+    """Sweep, plot, tabulate and summarise a map into an output set (moved in by its owner).
+
+    The tables are streamed to disk block by block; the files listed are where the set's
+    files end up.
+    """
     from lossbudget.output import plots
     from lossbudget.sweep import map_summary, sweep_rows, weighted_efficiency
 
     op = design.operating
-    out.mkdir(parents=True, exist_ok=True)
-    if not os.access(out, os.W_OK | os.X_OK):
-        raise PermissionError(13, "cannot write: the folder is not writable", str(out))
     budget = sweep_rows(
         design, vin=vin, load=load, ambient=ambient, progress=_progress(vin.size * load.size)
     )
     summary = map_summary(budget, rated_load=op.iout_rated)
     weighted = weighted_efficiency(design, ambient=ambient)
-    files: list[tuple[str, Path]] = []
+    written: list[tuple[str, Path]] = []
     notes: list[str] = []
     rated = op.iout_rated
-    target = {what: out / f"{stem}.{fmt}" for what, stem in FILE_NAMES.items()}
+    target = {what: files.stage(f"{stem}.{fmt}") for what, stem in FILE_NAMES.items()}
     if vin.size >= 2 and load.size >= 2:
-        files.append(
+        written.append(
             (
                 "efficiency map",
                 plots.efficiency_map(budget, target["efficiency map"], rated_load=rated),
             )
         )
     else:
+        files.drop(target["efficiency map"].name)  # not an earlier map's beside this set
         notes.append("efficiency map skipped: it needs 2 or more input voltages and loads")
     exact = ExactRows.solve(design, load=load, ambient=ambient)
-    files.append(
+    written.append(
         (
             "efficiency curves",
             plots.efficiency_curves(
@@ -297,7 +299,7 @@ def run_map(
             ),
         )
     )
-    files.append(
+    written.append(
         (
             "loss breakdown",
             plots.loss_breakdown(
@@ -305,7 +307,7 @@ def run_map(
             ),
         )
     )
-    files.append(
+    written.append(
         (
             "temperatures",
             plots.temperature_curves(
@@ -323,17 +325,24 @@ def run_map(
             ),
         )
     )
-    files.append(("loss bars", mechanism_bars(design, target["loss bars"], ambient=ambient)))
-    files.append(("point table", _write_csv(budget.point_table(), out / "points.csv")))
+    written.append(("loss bars", mechanism_bars(design, target["loss bars"], ambient=ambient)))
+    written.append(("point table", write_csv(files.stage("points.csv"),
+                                             table_chunks(budget, "point_table"))))
     if summary.points <= LONG_TABLE_POINTS or long_table:
-        files.append(("loss table", _write_csv(budget.loss_table(), out / "losses.csv")))
+        written.append(("loss table", write_csv(files.stage("losses.csv"),
+                                                table_chunks(budget, "loss_table"))))
     else:
+        files.drop("losses.csv")  # no loss table of an earlier map beside these points
         notes.append(
             f"losses.csv skipped: {summary.points:,} points is above "
             f"{LONG_TABLE_POINTS:,} (add --long-table to write it)"
         )
     return MapRun(
-        budget=budget, summary=summary, weighted=weighted, files=tuple(files), notes=tuple(notes)
+        budget=budget,
+        summary=summary,
+        weighted=weighted,
+        files=tuple((what, files.final(path)) for what, path in written),
+        notes=tuple(notes),
     )
 
 
@@ -501,9 +510,19 @@ def grid_options(command):
 @click.option(
     "--long-table", is_flag=True, help=f"Write losses.csv even above {LONG_TABLE_POINTS:,} points."
 )
+@max_points_option
 @reports_bad_input
 def map_command(
-    design: Path, vin_range, load_range, load_pct_range, log_load, ambient, out, fmt, long_table
+    design: Path,
+    vin_range,
+    load_range,
+    load_pct_range,
+    log_load,
+    ambient,
+    out,
+    fmt,
+    long_table,
+    max_points,
 ) -> None:
     """Efficiency map over input voltage × load: four plots, the point and loss tables
     (CSV), and a summary with the peak, the rated-load efficiency and weighted figures."""
@@ -511,8 +530,13 @@ def map_command(
     vin = vin_axis(d, vin_range)
     load = load_points(d, load=load_range, load_pct=load_pct_range, log_load=log_load)
     amb = quantity(ambient, "temperature", "--ambient")
-    run = run_map(d, vin=vin, load=load, ambient=amb, out=out, fmt=fmt, long_table=long_table)
+    check_size(vin.size * load.size, output="map", max_points=max_points,
+               shape=f"{vin.size:,} × {load.size:,}")
+    with output_set(out, create=True) as files:
+        run = run_map(d, vin=vin, load=load, ambient=amb, files=files, fmt=fmt,
+                      long_table=long_table)
     click.echo(map_report(d, run))
+    nothing_solved(run.summary.points, run.summary.flagged_points)
 
 
 @click.command("demo")
@@ -539,48 +563,46 @@ def demo_command(out: Path) -> None:
     click.echo(point_report(solve(d, vin=op.vin.nom, load_fraction=1.0)))
     click.echo("")
     click.echo("== efficiency map ==")
-    run = run_map(
-        d,
-        vin=vin_axis(d, None),
-        load=load_points(d, load=None, load_pct=None, log_load=False),
-        ambient=None,
-        out=out,
-        fmt="png",
-        long_table=False,
-    )
-    click.echo(map_report(d, run, cautions=False, files=False))
-    files = list(run.files)
-    report = None
-    click.echo("")
-    try:
-        from lossbudget.limits import check_limits
-    except ImportError:
-        click.echo("note: limit check skipped (lossbudget.limits is not available)")
-    else:
-        report = check_limits(d)
-        click.echo(
-            f"== limit check ({report.corner} part values, derating "
-            f"{report.derating}): worst status {report.worst_status} =="
+    with output_set(out, create=True) as staged:
+        run = run_map(
+            d,
+            vin=vin_axis(d, None),
+            load=load_points(d, load=None, load_pct=None, log_load=False),
+            ambient=None,
+            files=staged,
+            fmt="png",
+            long_table=False,
         )
-        click.echo("\n".join(limit_table(report)))
-        files.append(("margin chart", plots.margin_chart(report, out / "margins.png")))
-    try:
-        from lossbudget.output.workbook import write_workbook
-    except ImportError:
-        click.echo("note: workbook skipped (lossbudget.output.workbook is not available)")
-    else:
-        files.append(
-            (
-                "workbook",
-                write_workbook(
-                    out / "budget.xlsx",
-                    budget=run.budget,
-                    report=report,
-                    weighted=run.weighted,
-                    design=d,
-                ),
+        click.echo(map_report(d, run, cautions=False, files=False))
+        files = list(run.files)
+        report = None
+        click.echo("")
+        try:
+            from lossbudget.limits import check_limits
+        except ImportError:
+            click.echo("note: limit check skipped (lossbudget.limits is not available)")
+        else:
+            report = check_limits(d)
+            click.echo(
+                f"== limit check ({report.corner} part values, derating "
+                f"{report.derating}): worst status {report.worst_status} =="
             )
-        )
+            click.echo("\n".join(limit_table(report)))
+            chart = plots.margin_chart(report, staged.stage("margins.png"))
+            files.append(("margin chart", staged.final(chart)))
+        try:
+            from lossbudget.output.workbook import write_workbook
+        except ImportError:
+            click.echo("note: workbook skipped (lossbudget.output.workbook is not available)")
+        else:
+            workbook = write_workbook(
+                staged.stage("budget.xlsx"),
+                budget=run.budget,
+                report=report,
+                weighted=run.weighted,
+                design=d,
+            )
+            files.append(("workbook", staged.final(workbook)))
     click.echo("")
     click.echo("files:")
     click.echo(aligned_table(("what", "file"), [(w, str(p)) for w, p in files], indent="  "))

@@ -10,6 +10,7 @@ import numpy as np
 from lossbudget.cautions import CAUTIONS
 from lossbudget.commands.common import (
     BadInput,
+    NothingSolved,
     design_argument,
     load_percent,
     quantity,
@@ -191,3 +192,5 @@ def point(design: Path, vin, load_, load_pct, ambient, fsw, corner) -> None:
         corner=corner,
     )
     click.echo(point_report(budget))
+    if bool(np.all(budget.flagged)):
+        raise NothingSolved(f"the point could not be solved: {np.ravel(budget.reason)[0]}")

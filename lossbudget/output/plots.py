@@ -15,6 +15,7 @@ inside its lower edge.
 
 from __future__ import annotations
 
+import functools
 import textwrap
 from pathlib import Path
 
@@ -41,6 +42,23 @@ FLAGGED_HATCH = "///"
 # --------------------------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------------------------
+
+
+def _plain_text(draw):
+    """Draw a figure with maths parsing off: every text is shown as written.
+
+    Names come from the design file, and a "$" in one must not start matplotlib's mathtext
+    (an unknown command there is an error); no figure here uses mathtext on purpose.
+    """
+
+    @functools.wraps(draw)
+    def wrapper(*args, **kwargs):
+        from matplotlib import rc_context
+
+        with rc_context({"text.parse_math": False}):
+            return draw(*args, **kwargs)
+
+    return wrapper
 
 
 def _check_path(path) -> Path:
@@ -255,6 +273,7 @@ def _dcm_field(budget: Budget) -> tuple[np.ndarray, float]:
 # --------------------------------------------------------------------------------------------
 
 
+@_plain_text
 def efficiency_map(budget: Budget, path, *, rated_load: float | None = None) -> Path:
     """Filled efficiency contours over load × input voltage.
 
@@ -352,6 +371,7 @@ def efficiency_map(budget: Budget, path, *, rated_load: float | None = None) -> 
     return _save(fig, path)
 
 
+@_plain_text
 def efficiency_curves(budget: Budget, path, *, vins=None,
                       rated_load: float | None = None) -> Path:
     """Efficiency versus load at chosen input voltages.
@@ -456,6 +476,7 @@ def _layer_style(n: int) -> tuple[str, str | None]:
     return OKABE_ITO[n % len(OKABE_ITO)], hatches[(n // len(OKABE_ITO)) % len(hatches)]
 
 
+@_plain_text
 def loss_breakdown(budget: Budget, path, *, vin=None, rated_load: float | None = None,
                    min_share: float = 0.03) -> Path:
     """Stacked area of every component · mechanism loss versus load at one input voltage.
@@ -585,6 +606,7 @@ def _panel_title(budget: Budget, r: int, what: str) -> str:
             f"{_constant(amb, 'temperature')}, {values}")
 
 
+@_plain_text
 def temperature_curves(budget: Budget, path, *, vin=None,
                        rated_load: float | None = None,
                        design_limits: dict[str, float] | None = None,
@@ -672,6 +694,7 @@ def _one(value) -> float:
     return float(np.asarray(value, dtype=float).ravel()[0])
 
 
+@_plain_text
 def mechanism_bars(nominal: Budget, worst: Budget, path, *, nominal_what: str,
                    worst_what: str) -> Path:
     """Every loss mechanism at two operating points as sorted horizontal bars with values.
@@ -760,6 +783,7 @@ def _where_label(where: dict) -> str:
     return " · ".join(f"{k} {_q(float(v), dims[k])}" for k, v in where.items() if k in dims)
 
 
+@_plain_text
 def margin_chart(report, path) -> Path:
     """One horizontal bar per limit row: the margin to the design limit after derating.
 

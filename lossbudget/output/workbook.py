@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import contextlib
 import errno
-import json
 import math
 import os
 from collections.abc import Sequence
@@ -25,7 +24,9 @@ import numpy as np
 
 from lossbudget.budget import AXIS_COLUMNS, Budget
 from lossbudget.cautions import CAUTIONS
-from lossbudget.output.files import atomic_paths
+from lossbudget.output.files import atomic_paths, output_set
+from lossbudget.output.tablefiles import plain as _plain
+from lossbudget.output.tablefiles import table_chunks, write_csv, write_json
 
 WORKBOOK_SUFFIXES = (".xlsx",)
 TABLE_SUFFIXES = (".csv", ".json")
@@ -99,7 +100,8 @@ def check_target(path: str | os.PathLike, *, suffixes: Sequence[str]) -> Path:
 # --------------------------------------------------------------------------------------------
 
 
-def write_tables(path: str | os.PathLike, *, budget: Budget) -> tuple[Path, ...]:
+def write_tables(path: str | os.PathLike, *, budget: Budget,
+                 long_table: bool = True) -> tuple[Path, ...]:
     """Write the point, loss and stress tables as CSV files or as one JSON document.
 
     Parameters
@@ -107,11 +109,15 @@ def write_tables(path: str | os.PathLike, *, budget: Budget) -> tuple[Path, ...]
     path : path-like
         ``<stem>.csv``: the point table there, the loss and stress tables beside it as
         ``<stem>-losses.csv`` and ``<stem>-stresses.csv`` (empty fields where a number is
-        NaN). ``<stem>.json``: one document with ``provenance``, ``cautions``,
-        ``point_table``, ``loss_table`` and ``stress_table`` (each table a list of records;
-        NaN as null).
+        NaN; text fields quoted, and those a spreadsheet would read as a formula given a
+        leading apostrophe). ``<stem>.json``: one document with ``provenance``,
+        ``cautions``, ``point_table``, ``loss_table`` and ``stress_table`` (each table a
+        list of records; NaN as null).
     budget : Budget
         The budget to write.
+    long_table : bool
+        Write the loss table (a row per point and mechanism); when false the CSV set has no
+        ``<stem>-losses.csv`` and the JSON document's ``loss_table`` is null.
 
     Returns
     -------
@@ -123,62 +129,30 @@ def write_tables(path: str | os.PathLike, *, budget: Budget) -> tuple[Path, ...]
     ValueError
         When the suffix is neither .csv nor .json.
     OSError
-        When the target cannot be written; nothing is left half-written.
+        When the target cannot be written, naming the path; the set is written whole or not
+        at all (the tables are streamed block by block into a staging folder and moved in
+        together), and previous files are left as they were on a failure.
     """
     target = check_target(path, suffixes=TABLE_SUFFIXES)
-    tables = {
-        "point_table": budget.point_table(),
-        "loss_table": budget.loss_table(),
-        "stress_table": budget.stress_table(),
-    }
-    if target.suffix.lower() == ".csv":
-        targets = [
-            target,
-            target.with_name(f"{target.stem}-losses{target.suffix}"),
-            target.with_name(f"{target.stem}-stresses{target.suffix}"),
-        ]
-        with atomic_paths(targets) as temps:
-            for frame, temp in zip(tables.values(), temps, strict=True):
-                frame.to_csv(temp, index=False)
-        return tuple(targets)
-    document: dict[str, Any] = {"provenance": budget.provenance, "cautions": list(CAUTIONS)}
-    document.update({name: _records(frame) for name, frame in tables.items()})
-    with atomic_paths([target]) as temps, open(temps[0], "w", encoding="utf-8") as handle:
-        json.dump(document, handle, indent=1, allow_nan=False, default=_json_value)
-        handle.write("\n")
+    names = ("point_table", "loss_table", "stress_table")
+    wanted = [n for n in names if long_table or n != "loss_table"]
+    with output_set(target.parent) as files:
+        if target.suffix.lower() == ".csv":
+            suffixes = {"point_table": "", "loss_table": "-losses", "stress_table": "-stresses"}
+            written = []
+            for name in names:
+                member = f"{target.stem}{suffixes[name]}{target.suffix}"
+                if name not in wanted:
+                    files.drop(member)  # no loss table of an earlier run beside this set
+                    continue
+                staged = files.stage(member)
+                written.append(files.final(write_csv(staged, table_chunks(budget, name))))
+            return tuple(written)
+        head = {"provenance": budget.provenance, "cautions": list(CAUTIONS)}
+        staged = files.stage(target.name)
+        write_json(staged, head=head, tables={
+            n: table_chunks(budget, n) if n in wanted else None for n in names})
     return (target,)
-
-
-def _records(frame) -> list[dict[str, Any]]:
-    """A table as a list of records with plain Python values (NaN as None)."""
-    columns = list(frame.columns)
-    return [{c: _plain(v) for c, v in zip(columns, row, strict=True)}
-            for row in frame.itertuples(index=False, name=None)]
-
-
-def _json_value(value: Any) -> Any:
-    plain = _plain(value)
-    if plain is value:
-        raise TypeError(f"cannot write {type(value).__name__} to JSON")
-    return plain
-
-
-def _plain(value: Any) -> Any:
-    """A table value as a plain Python value for a file: NaN and None as None."""
-    if value is None:
-        return None
-    if isinstance(value, bool | np.bool_):
-        return bool(value)
-    if isinstance(value, int | np.integer):
-        return int(value)
-    if isinstance(value, float | np.floating):
-        value = float(value)
-        return value if math.isfinite(value) else None
-    if isinstance(value, np.ndarray):
-        return [_plain(v) for v in value.tolist()]
-    if isinstance(value, tuple | list):
-        return [_plain(v) for v in value]
-    return value
 
 
 # --------------------------------------------------------------------------------------------
@@ -472,13 +446,36 @@ class _Cells:
 
 
 def _new_sheet(wb, name: str):
-    """A write-only sheet that prints landscape, one page wide (set before any row)."""
+    """A write-only sheet that prints landscape, one page wide (set before any row).
+
+    Every text value appended to the sheet is written as a string cell: openpyxl reads a
+    str starting with "=" as a formula and one such as "#REF!" as an error, and names come
+    from the design file. The workbook writes no formula of its own.
+    """
     ws = wb.create_sheet(name)
+    append = ws.append
+
+    def append_text_as_text(row):
+        append([_text_cell(ws, v) for v in row])
+
+    ws.append = append_text_as_text
     ws.page_setup.orientation = "landscape"
     ws.page_setup.fitToWidth = 1
     ws.page_setup.fitToHeight = 0
     ws.sheet_properties.pageSetUpPr.fitToPage = True
     return ws
+
+
+def _text_cell(ws, value: Any):
+    """A value for a write-only row, any text in it bound as a string cell (never a formula)."""
+    from openpyxl.cell import WriteOnlyCell
+    from openpyxl.cell.cell import Cell
+
+    if isinstance(value, str):
+        value = WriteOnlyCell(ws, value=value)
+    if isinstance(value, Cell) and isinstance(value.value, str):
+        value.data_type = "s"
+    return value
 
 
 def _freeze(ws, cell: str) -> None:
