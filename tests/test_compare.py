@@ -253,3 +253,19 @@ def test_variant_limit_check_is_the_same_in_blocks(monkeypatch):
     np.testing.assert_array_equal(whole.worst_status, blocks.worst_status)
     np.testing.assert_array_equal(whole.worst_limit, blocks.worst_limit)
     pd.testing.assert_frame_equal(whole.table, blocks.table)
+
+
+def test_optimum_frequency_per_candidate_with_fsw_not_the_last_key():
+    # Each candidate's optimum is the argmin of its own rows (checked by filtering the frame)
+    design = lb.load_design(_closed_form_design())
+    grid = np.arange(100e3, 250e3 + 1.0, 10e3)
+    v = vm.variants(design, vary={"operating.fsw": grid, "inductor.l": ["33 uH", "68 uH"]})
+    frame = compare(v, objective="full_load")
+    opt = optimum_frequency(v, frame)
+    assert opt["candidate"].tolist() == ["l=33 uH", "l=68 uH"]
+    for label, f_opt in zip(opt["candidate"], opt["fsw_opt_hz"], strict=True):
+        ell = 33e-6 if label == "l=33 uH" else 68e-6
+        rows = frame[np.isclose([v.design(i).inductor.l.typ for i in frame["variant_id"]], ell)]
+        assert f_opt == rows.loc[rows["objective_loss"].idxmin(), "operating.fsw"]
+    # a larger inductance has less ripple to trade: its optimum frequency is lower (f* ∝ L^-2/3)
+    assert opt["fsw_opt_hz"].iloc[1] < opt["fsw_opt_hz"].iloc[0]
