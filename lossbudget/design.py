@@ -37,14 +37,15 @@ RectifierKind = Literal["diode", "sync"]
 LightLoad = Literal["forced-continuous", "diode-emulation"]
 Corner = Literal["typ", "worst"]
 DriverSupply = Literal["vin", "vout", "aux"]
-DcmTurnOn = Literal["settled", "peak", "valley"]
+DcmTurnOn = Literal["ring", "averaged", "valley"]
 Position = Literal["input", "switch", "rectifier", "inductor", "output", "load"]
 
 TOPOLOGIES = ("boost", "buck", "buck-boost")
 RECTIFIER_KINDS = ("diode", "sync")
 LIGHT_LOADS = ("forced-continuous", "diode-emulation")
 SUPPLIES = ("vin", "vout", "aux")
-DCM_TURN_ONS = ("settled", "peak", "valley")
+DCM_TURN_ONS = ("ring", "averaged", "valley")
+DCM_TURN_ONS_REPLACED = ("settled", "peak")
 POSITIONS = ("input", "switch", "rectifier", "inductor", "output", "load")
 DERATING_PROFILES = ("none", "moderate", "conservative")
 # [limits.margins]: the quantities of each part kind a derating row may set (the same table
@@ -349,7 +350,8 @@ class Operating:
     min_on_time: float = 0.0
     min_off_time: float = 0.0
     i_limit: float | None = None
-    dcm_turn_on: DcmTurnOn = "settled"
+    dcm_turn_on: DcmTurnOn = "ring"
+    ring_q: float | None = None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -1135,6 +1137,7 @@ def _operating(rd: _Reader, raw: Any, topology: str | None) -> Operating | None:
             "min_off_time",
             "i_limit",
             "dcm_turn_on",
+            "ring_q",
         ),
         required=("vin", "vout", "iout_rated", "fsw", "ambient"),
     )
@@ -1170,7 +1173,16 @@ def _operating(rd: _Reader, raw: Any, topology: str | None) -> Operating | None:
     t_on = rd.optional(tab, "min_on_time", path, nonnegative=True)
     t_off = rd.optional(tab, "min_off_time", path, nonnegative=True)
     i_lim = rd.optional(tab, "i_limit", path)
-    dcm = rd.choice(tab, "dcm_turn_on", path, DCM_TURN_ONS, default="settled")
+    if tab.get("dcm_turn_on") in DCM_TURN_ONS_REPLACED:
+        rd.problem(
+            "operating.dcm_turn_on",
+            f"{_show(tab['dcm_turn_on'])} is no longer a choice (the DCM turn-on now follows "
+            f"the node ring): expected one of {', '.join(DCM_TURN_ONS)}",
+        )
+        dcm = None
+    else:
+        dcm = rd.choice(tab, "dcm_turn_on", path, DCM_TURN_ONS, default="ring")
+    ring_q = rd.number(tab, "ring_q", path)
     if vin is not None and vout is not None and topology is not None:
         if topology == "buck" and vout.min >= vin.max:
             rd.problem(
@@ -1199,6 +1211,7 @@ def _operating(rd: _Reader, raw: Any, topology: str | None) -> Operating | None:
         min_off_time=t_off or 0.0,
         i_limit=i_lim,
         dcm_turn_on=dcm,
+        ring_q=ring_q,
     )
 
 

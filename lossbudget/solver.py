@@ -23,6 +23,8 @@ from lossbudget.factorial import Variants, stacked_design, take
 from lossbudget.losses import diode as dio
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
+from lossbudget.losses import ring as rng
+from lossbudget.losses import ring_trajectory as rtr
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
 from lossbudget.waveforms import integral_extremes_pwl
@@ -44,6 +46,7 @@ THERMAL_TOL = 0.01
 CEILING = 300.0
 ESR_FLOOR = 1e-6
 EDGE_MECHANISMS = ("turn_on", "turn_off", "coss", "dead_time", "reverse_recovery")
+AVERAGED_SAMPLES = 16  # phase samples over one ring period (dcm_turn_on = "averaged")
 
 
 # --------------------------------------------------------------------------------------------
@@ -356,6 +359,7 @@ class _Evaluation:
     reverse_current: np.ndarray
     notes: np.ndarray  # per point: what is extrapolated or clipped ("" where nothing is)
     starved: np.ndarray  # the input resistor cannot pass the power the stage draws
+    ring: tuple | None = None
 
 
 def _note(notes: np.ndarray, mask, text: str) -> np.ndarray:
@@ -402,9 +406,129 @@ def _gate_timing(fet: _Fet, drv) -> tuple:
         )
 
 
-def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
+def _ring_charge(ctx: _Context) -> tuple[float, float]:
+    """Charge coefficients of the switch and the opposite device on the C ∝ v^-1/2 law."""
+    return ctx.sw.a or 0.0, ctx.rect.a or 0.0
+
+
+def _delta1(ctx: _Context, f, t_l):
+    """Dowell's Δ1 of the winding at frequency ``f``, or None without winding data."""
+    d = ctx.design
+    w = d.inductor.winding
+    if w is None or w.litz or (w.rac_rdc is None and w.wire_diameter is None):
+        return None
+    rho = mag.copper_resistivity_at(t_l)
+    if ctx.delta1_ref is not None:
+        rho_ref = mag.copper_resistivity_at(25.0)
+        return ctx.delta1_ref * np.sqrt(f / d.operating.fsw.nom) * np.sqrt(rho_ref / rho)
+    delta = mag.skin_depth(f, resistivity=rho)
+    return mag.foil_equivalent_delta(w.wire_diameter, skin_depth=delta, porosity=w.porosity)
+
+
+def _ring_q(ctx: _Context, st, *, dcr, t_l, r_loop):
+    """Quality factor and series resistance of the DCM node ring at every point.
+
+    ``operating.ring_q`` where given (R_ring = ω0·L/Q); otherwise R_ring = the winding's
+    resistance at the small-signal ring frequency (Dowell) + the core's series equivalent
+    (Steinmetz at the ring's initial current) + the series resistors in the inductor path
+    (SPEC §2.3). Returns (Q, R_ring), or None where the node holds no charge.
+    """
+    a_s, a_o = _ring_charge(ctx)
+    if a_s + a_o <= 0.0:
+        return None
+    ind = ctx.design.inductor
+    l_stage = ctx.l / ind.count
+    v_b, v_set = st.v_switch_block, st.v_switch_settled
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w0 = rng.ring_frequency_small_signal(
+            v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o
+        )
+        q_given = ctx.design.operating.ring_q
+        if q_given is not None:
+            q = np.full(np.shape(v_b), q_given)
+            return q, rng.ring_resistance_from_q(q, omega0=w0, l=l_stage)
+        f_r = w0 / (2.0 * np.pi)
+        delta1 = _delta1(ctx, f_r, t_l)
+        fr = 1.0 if delta1 is None else mag.ac_resistance_factor_dowell(delta1, layers=ctx.layers)
+        r = dcr * fr + r_loop
+        core = ind.core
+        if core is not None:
+            u0 = rng.ring_energy(v_b, v_set=v_set, v_block=v_b, a_self=a_s, a_opp=a_o)
+            i_r = np.sqrt(2.0 * u0 / l_stage)
+            r_core = rng.core_series_resistance_steinmetz(
+                i_r / ind.count, f=f_r, l=ctx.l, turns=core.turns, ae=core.ae, ve=core.ve,
+                k=core.k, alpha=core.alpha, beta=core.beta,
+            )
+            if core.ct is not None:
+                r_core = r_core * mag.core_loss_temperature_factor(
+                    t_l, ct0=core.ct[0], ct1=core.ct[1], ct2=core.ct[2]
+                )
+            r = r + r_core / ind.count
+        return rng.ring_q_from_resistance(r, omega0=w0, l=l_stage), r
+
+
+def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
+    """The DCM node ring at the main switch's turn-on: coss and decay energies per cycle.
+
+    ``dcm_turn_on``: "ring" turns on at the ring's voltage at the end of the idle interval,
+    "valley" at the last valley reached within it, "averaged" takes the mean energy over the
+    last small-signal ring period of the idle interval (a jittering turn-on instant). The
+    switch's coss is the partial-swing charge balance from that voltage, so at zero idle time
+    it is the CCM hard value. None where the node holds no charge.
+    """
+    a_s, a_o = _ring_charge(ctx)
+    if a_s + a_o <= 0.0 or q is None:
+        return None
+    sw, rc = ctx.sw, ctx.rect
+    ae_op = rc.ae if ctx.sync else None
+    l_stage = ctx.l / ctx.design.inductor.count
+    mode = ctx.design.operating.dcm_turn_on
+    dcm = np.broadcast_to(st.dcm, np.shape(v))
+    # CCM points turn on hard from the full edge voltage: the ring's value at zero idle time
+    e_coss = mos.hard_turn_on_coss_energy(v, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op)
+    e_decay = np.zeros(np.shape(v))
+    sel = np.flatnonzero(dcm.ravel())
+    if sel.size == 0:
+        return {"e_coss": e_coss, "e_decay": e_decay}
+
+    def at(x):
+        return np.broadcast_to(x, np.shape(v)).ravel()[sel]
+
+    v_b, v_set, q_s, v_e = at(st.v_switch_block), at(st.v_switch_settled), at(q), at(v)
+    t_idle = np.maximum(1.0 - at(st.duty) - at(st.d2), 0.0) / at(fsw)
+    table = rtr.ring_table(a_s / (a_s + a_o))
+    if mode == "averaged":
+        # the mean over the last small-signal ring period of the idle interval
+        with np.errstate(invalid="ignore", divide="ignore"):
+            w0 = rng.ring_frequency_small_signal(
+                v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o
+            )
+        lo = np.maximum(t_idle - 2.0 * np.pi / w0, 0.0)
+        frac = (np.arange(AVERAGED_SAMPLES) + 0.5) / AVERAGED_SAMPLES
+        t = lo[:, None] + (t_idle - lo)[:, None] * frac
+        v_set, v_b, q_s, v_e = (x[:, None] for x in (v_set, v_b, q_s, v_e))
+    else:
+        t = t_idle
+    v_on, dec = rtr.ring_state(
+        t, v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o, q=q_s,
+        valley=mode == "valley", table=table,
+    )
+    on = mos.partial_swing_coss_energy(
+        v_e, v_residual=v_on, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op
+    )
+    if mode == "averaged":
+        on, dec = on.mean(axis=-1), dec.mean(axis=-1)
+    e_coss = e_coss.copy().reshape(-1)
+    e_coss[sel] = on
+    e_decay = e_decay.reshape(-1)
+    e_decay[sel] = dec
+    return {"e_coss": e_coss.reshape(np.shape(v)), "e_decay": e_decay.reshape(np.shape(v))}
+
+
+def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, ring_q, reasons=True):
     """Switching-edge losses of both devices (SPEC §2.3), energies × fsw.
 
+    ``ring_q`` is the quality factor of the DCM node ring at each point (:func:`_ring_q`).
     The zero reasons are strings over every point; ``reasons=False`` (the thermal and
     intermediate passes, which never report them) leaves them None.
     """
@@ -442,21 +566,29 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
             sw.eoff[0], at_v=sw.eoff[1], at_i=sw.eoff[2], v=v, i=i_pk
         )
     else:
-        e_off = mos.turn_off_energy(v, i_pk, t_rv=t_rv, t_fi=t_fi, q_node=q_node)
+        # the channel is relieved of the energy the node stores, the same energy that coss
+        # charges at the next hard turn-on (one energy for both edges)
+        q_er = mos.node_charge_energy_equivalent(
+            v,
+            e_node=mos.hard_turn_on_coss_energy(
+                v, a_self=a_sw, a_opp=a_op, ae_self=ae_sw, ae_opp=ae_op
+            ),
+        )
+        e_off = mos.turn_off_energy(v, i_pk, t_rv=t_rv, t_fi=t_fi, q_node=q_er)
     out["switch", "turn_off"] = e_off * fsw
     zero["switch", "turn_off"] = pick(e_off == 0, "capacitive turn-off (slow node)", "")
-    # node charge at the main switch's turn-on
+    # node charge at the main switch's turn-on; in DCM from the voltage the node ring leaves
     coss_given = sw.a is not None
+    ring = _ring_turn_on(ctx, st, v=v, fsw=fsw, q=ring_q)
+    if ring is not None:
+        out["inductor", "ring"] = np.where(dcm, ring["e_decay"], 0.0) * fsw
+        zero["inductor", "ring"] = pick(dcm, pick(ring["e_decay"] == 0, "no node charge", ""),
+                                        "no idle interval (CCM)")
     if coss_given:
         e_hard = mos.hard_turn_on_coss_energy(
             v, a_self=a_sw, a_opp=a_op, ae_self=ae_sw, ae_opp=ae_op
         )
-        mode = ctx.design.operating.dcm_turn_on
-        v_set = st.v_switch_settled
-        v_dcm = {"settled": v_set, "peak": v, "valley": np.maximum(2 * v_set - v, 0.0)}[mode]
-        e_dcm = mos.node_energy(v_dcm, a=ae_sw if ae_sw is not None else a_sw) + mos.node_energy(
-            v_dcm, a=ae_op if ae_op is not None else a_op
-        )
+        e_dcm = ring["e_coss"]
         if t_dead is not None:
             v_r = mos.residual_voltage(
                 v, charge_moved=np.abs(i_v) * t_dead, a_self=a_sw, a_opp=a_op
@@ -501,7 +633,13 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, reasons=True):
     if ctx.sync:
         # the synchronous FET: its body diode clamps both edges unless the current reverses
         _, _, t_rv_r, t_fi_r = _gate_timing(rc, drv)
-        e_off_r = mos.turn_off_energy(v, np.abs(i_v), t_rv=t_rv_r, t_fi=t_fi_r, q_node=q_node)
+        q_er_r = mos.node_charge_energy_equivalent(
+            v,
+            e_node=mos.hard_turn_on_coss_energy(
+                v, a_self=a_op, a_opp=a_sw, ae_self=ae_op, ae_opp=ae_sw
+            ),
+        )
+        e_off_r = mos.turn_off_energy(v, np.abs(i_v), t_rv=t_rv_r, t_fi=t_fi_r, q_node=q_er_r)
         out["rectifier", "turn_off"] = np.where(reversed_, e_off_r, 0.0) * fsw
         zero["rectifier", "turn_off"] = pick(
             reversed_,
@@ -760,7 +898,11 @@ def _evaluate(
         if probe and step == steps - 1:
             return st, thermal
         v = v_edge_of(vin_eff)
-        edge, zero, dead = _edge(ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, reasons=report)
+        ring = _ring_q(ctx, st, dcr=dcr, t_l=t_l, r_loop=r_l - dcr)
+        edge, zero, dead = _edge(
+            ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, ring_q=None if ring is None else ring[0],
+            reasons=report,
+        )
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
         # an infeasible point keeps its first, finite inputs so that its reason stays the
         # stage's own (NaN would turn every check false). Behind an input resistor R the
@@ -841,6 +983,8 @@ def _evaluate(
         reverse_current=~st.dcm & (st.i_valley < 0),
         notes=notes,
         starved=starved,
+        ring=None if ring is None else (np.where(st.dcm, ring[0], np.nan),
+                                        np.where(st.dcm, ring[1], np.nan)),
     )
 
 
@@ -893,17 +1037,8 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
         if core.fit_b is not None:
             with np.errstate(invalid="ignore"):
                 extrap = extrap | (delta_b / 2 > core.fit_b[1]) | (delta_b / 2 < core.fit_b[0])
-    w = ind.winding
-    if w is not None and not w.litz and (w.rac_rdc is not None or w.wire_diameter is not None):
-        rho = mag.copper_resistivity_at(t_l)
-        if ctx.delta1_ref is not None:
-            rho_ref = mag.copper_resistivity_at(25.0)
-            delta1 = ctx.delta1_ref * np.sqrt(g.fsw / d.operating.fsw.nom) * np.sqrt(rho_ref / rho)
-        else:
-            delta = mag.skin_depth(g.fsw, resistivity=rho)
-            delta1 = mag.foil_equivalent_delta(
-                w.wire_diameter, skin_depth=delta, porosity=w.porosity
-            )
+    delta1 = _delta1(ctx, g.fsw, t_l)
+    if delta1 is not None:
         harm = st.i_l.harmonics_rms(N_HARMONICS)
         n = np.arange(1, N_HARMONICS + 1)
         # harmonics above the last one summed, from the RMS of the current's derivative
@@ -1083,6 +1218,12 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     else:
         st["inductor", "copper_ac"] = ("computed", "")
     st["inductor", "core"] = ("computed", "") if ind.core else ("not_modelled", "inductor.core")
+    if not ctx.dcm_allowed:
+        st["inductor", "ring"] = ("not_applicable", "forced-continuous: no DCM idle interval")
+    elif sum(_ring_charge(ctx)) > 0.0:
+        st["inductor", "ring"] = ("computed", "")
+    else:
+        st["inductor", "ring"] = ("not_modelled", "switch.qoss or switch.eoss (node charge)")
     for c in d.capacitors:
         st[c.name, "esr"] = ("computed", "")
     for r in d.resistors:
@@ -1587,6 +1728,9 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
     notes = cat(lambda p: p.ev.notes)
     reason = np.where(bad, reason, np.where(flags["extrapolated"], notes, ""))
     provenance = _provenance(ctx, corner)
+    provenance["ring_q"] = _ring_provenance(ctx, pieces, bad.ravel())
+    if provenance["ring_q"]["dcm_points"]:
+        provenance["notes"].append(_ring_note(ctx, provenance["ring_q"]))
     return Budget(
         design_name=d.name,
         topology=d.topology,
@@ -1609,6 +1753,44 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         diverging_temperatures={
             node: cat(lambda p, j=j: p.diverging[:, j]) for j, node in enumerate(ctx.nodes)
         },
+    )
+
+
+def _ring_provenance(ctx: _Context, pieces, bad) -> dict:
+    """The DCM ring's damping as used: Q and R_ring over the solved DCM points."""
+    op = ctx.design.operating
+    if op.ring_q is not None:
+        source = "operating.ring_q, at the small-signal ring frequency at the settled voltage"
+    else:
+        source = (
+            "winding resistance at the ring frequency (Dowell; DC resistance without winding "
+            "data) + core series resistance (Steinmetz at the ring's initial current) + series "
+            "resistors in the inductor path"
+        )
+    out = {"choice": op.dcm_turn_on, "source": source, "dcm_points": 0,
+           "q": [], "r_ring_ohm": []}
+    rings = [p.ev.ring for p in pieces]
+    if any(r is None for r in rings):
+        out["source"] = "no node charge: no ring"
+        return out
+    q = np.concatenate([r[0].ravel() for r in rings])
+    r = np.concatenate([r[1].ravel() for r in rings])
+    ok = np.isfinite(q) & ~bad
+    out["dcm_points"] = int(np.count_nonzero(ok))
+    if out["dcm_points"]:
+        out["q"] = [float(q[ok].min()), float(q[ok].max())]
+        out["r_ring_ohm"] = [float(r[ok].min()), float(r[ok].max())]
+    return out
+
+
+def _ring_note(ctx: _Context, ring: dict) -> str:
+    q, r = ring["q"], ring["r_ring_ohm"]
+    span_q = f"{q[0]:.3g}" if np.isclose(q[0], q[1], rtol=5e-3) else f"{q[0]:.3g} to {q[1]:.3g}"
+    span_r = f"{r[0]:.3g}" if np.isclose(r[0], r[1], rtol=5e-3) else f"{r[0]:.3g} to {r[1]:.3g}"
+    return (
+        f"DCM turn-on: dcm_turn_on = {ring['choice']}, node ring Q = {span_q} (R_ring = "
+        f"{span_r} ohm; {ring['source']}); the ring current left at turn-on is not carried "
+        "into the next on-interval"
     )
 
 
@@ -1680,6 +1862,13 @@ def _provenance(ctx: _Context, corner: Corner) -> dict:
         "copper_ac: Dowell's 1-D layer model with the round-wire equivalent foil, summed over "
         f"{N_HARMONICS} harmonics; poor near an air gap and for single-layer toroid or drum "
         "windings",
+        "DCM node ring: damped ring of L with the nonlinear node capacitance (C ∝ v^-1/2 per "
+        "device) about the settled voltage, clamped at 0 and at the blocking voltage, tabulated "
+        "once and interpolated (Huber, Irving, Jovanović, IEEE TPEL 24(2), 2009; series RLC as "
+        "its linear limit); coss from the partial-swing charge balance at the turn-on voltage; "
+        "the decay is the inductor's ring loss",
+        "turn-off: the channel is relieved of the energy-equivalent node charge 2·E_node/V, so "
+        "that turn-off and coss count the node energy once (derived)",
         "capacitors: ESR constant over the harmonics; banks at one position share each harmonic "
         "by impedance",
         f"thermal: coupled fixed point from the ambient, error within {THERMAL_TOL} K; runaway "

@@ -576,9 +576,16 @@ def solve_coupled(
             estimate = step / (1.0 - gain)
             done = ~bad & ~hot & ((step <= floor) | ((gain < 1.0) & (estimate <= tol)))
             leaving = ~bad & ~hot & ~done & (np.minimum(ratio, ratio_prev[active]) >= 1.0)
+        # a loss model that turns undefined (the stage cannot deliver at these temperatures)
+        # while the steps were already growing is a runaway that went past the model's range
+        diverged = bad & (ratio_prev[active] >= 1.0)
+        bad_only = bad & ~diverged
+        leaving = leaving | diverged
+        ratio = np.where(diverged, ratio_prev[active], ratio)
+        t_new = np.where(diverged[:, np.newaxis], t_old, t_new)
         loop_gain[active] = ratio
         error[active] = np.where(gain < 1.0, estimate, np.inf)
-        undefined[active[bad]] = True
+        undefined[active[bad_only]] = True
         over_ceiling[active[hot]] = True
         gain_runaway[active[leaving]] = True
         before[active[leaving]] = t_new[leaving]

@@ -108,7 +108,7 @@ def test_demo_values_in_si():
     assert [c.name for c in d.capacitors] == ["cin", "cout"]
     assert_allclose(d.capacitors[1].c.worst, 8e-6)
     assert d.sinks[0].name == "board"
-    assert ("operating.dcm_turn_on", "settled") in d.defaults
+    assert ("operating.dcm_turn_on", "ring") in d.defaults
 
 
 def test_resolved_paths_name_the_keys_as_written():

@@ -441,6 +441,8 @@ def map_report(design: Design, run: MapRun, *, cautions: bool = True, files: boo
             aligned_table(("what", "file"), [(w, str(p)) for w, p in run.files], indent="    ")
         )
     lines.extend(f"  note: {n}" for n in run.notes)
+    # the DCM turn-on choice and the node ring's Q (SPEC §2.3: every output states them)
+    lines.extend(f"  note: {n}" for n in b.provenance.get("notes", ()) if n.startswith("DCM "))
     if cautions:
         lines.append("")
         lines.extend(_wrap(f"caution: {text}", "  ") for text in CAUTIONS)

@@ -30,6 +30,7 @@ __all__ = [
     "gate_resistance_share",
     "hard_turn_on_coss_energy",
     "node_charge",
+    "node_charge_energy_equivalent",
     "node_energy",
     "partial_swing_coss_energy",
     "qrr_scaled",
@@ -433,6 +434,43 @@ def hard_turn_on_coss_energy(
     )
 
 
+def node_charge_energy_equivalent(v: ArrayLike, *, e_node: ArrayLike) -> np.ndarray:
+    """Energy-equivalent node charge, Q_er = 2·E_node/V.
+
+    Parameters
+    ----------
+    v : array_like
+        Edge voltage V the node swings across. [V]
+    e_node : array_like
+        Energy the node swing leaves to be dissipated at the next hard turn-on,
+        E_self(V) + Q_opp(V)·V − E_opp(V) (:func:`hard_turn_on_coss_energy`). [J]
+
+    Returns
+    -------
+    ndarray
+        Q_er = 2·E_node/V; 0 where V ≤ 0. [C]
+
+    Notes
+    -----
+    During a turn-off whose voltage rises linearly over t_rv at a constant load current I,
+    the channel dissipates ∫ v·(I − C_node(v)·dv/dt) dt = ½·V·I·t_rv − ∫₀^V v·C_node(v) dv,
+    and with C_node(v) = C_self(v) + C_opp(V − v) the integral is E_self(V) + V·Q_opp(V) −
+    E_opp(V): exactly what the next hard turn-on charges as ``coss``. Passing Q_er to
+    :func:`turn_off_energy` makes the two edges count that energy once. On the C ∝ v^−½ law
+    Q_er = (2/3)·Q_self + (4/3)·Q_opp, against Q_self + Q_opp for the node's charge itself;
+    the two rules differ by V·(Q_self − Q_opp)/6 per cycle.
+
+    References
+    ----------
+    .. [1] REFERENCES.md §5.3 (stored charge and energy of a nonlinear capacitance, and the
+       hard turn-on attribution, common practice); SPEC §2.3 (gate-charge timing). The
+       equivalence is derived here from the linear voltage rise of the gate-charge model.
+    """
+    v = _f(v)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(v > 0.0, 2.0 * _f(e_node) / np.where(v > 0.0, v, 1.0), 0.0)
+
+
 def residual_voltage(
     v: ArrayLike, *, charge_moved: ArrayLike, a_self: ArrayLike, a_opp: ArrayLike
 ) -> np.ndarray:
@@ -712,8 +750,11 @@ def turn_off_energy(
     t_fi : array_like
         Current fall time. [s]
     q_node : array_like
-        Node charge at ``v_edge``: both devices' Qoss (or the diode's qc), e.g.
-        ``node_charge(v, a=a_self) + node_charge(v, a=a_opp)``. [C]
+        Node charge the channel is relieved of during the voltage rise. The solver passes
+        the energy-equivalent charge 2·E_node(V)/V (:func:`node_charge_energy_equivalent`),
+        so that the turn-off removes from the channel exactly the energy the next hard
+        turn-on charges as ``coss``; both devices' Qoss (or qc) is the older, charge-based
+        rule, V·(Q_self − Q_opp)/6 apart on the C ∝ v^−½ law. [C]
 
     Returns
     -------
@@ -729,7 +770,10 @@ def turn_off_energy(
     the charge Q_node for it, i.e. a current Q_node/t_rv on average, and that share of the
     load current flows into the capacitances, not the channel. The channel keeps
     i_ch = I − Q_node/t_rv during the voltage rise and lets it fall to zero in t_fi, which
-    gives the two triangles above. Where Q_node/I ≥ t_rv (light load) the load current
+    gives the two triangles above. With the energy-equivalent charge the voltage-rise
+    triangle is ½·V·I·t_rv − E_node, the channel energy of a linear rise with the node
+    capacitance taking C_node(v)·dv/dt, as long as the channel current stays positive.
+    Where Q_node/I ≥ t_rv (light load) the load current
     alone charges the node faster than the gate lets it rise: the turn-off is capacitive
     and nearly lossless (E_off = 0), and the energy then stored in the node is counted once,
     in ``coss`` at the next turn-on. The rule is continuous across I = Q_node/t_rv (i_ch → 0

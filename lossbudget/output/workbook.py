@@ -926,6 +926,11 @@ def _summary_sheet(ws, view: _View, *, report: Any, weighted: Sequence[Any] | No
         ("tool", prov.get("tool", ""), ""),
         ("corner", prov.get("corner", ""), ""),
         ("dcm_turn_on", prov.get("dcm_turn_on", ""), ""),
+        ("ring_q (min, max over the DCM points)",
+         ", ".join(f"{x:.4g}" for x in prov.get("ring_q", {}).get("q", [])) or "no DCM point", ""),
+        ("R_ring (min, max over the DCM points)",
+         ", ".join(f"{x:.4g}" for x in prov.get("ring_q", {}).get("r_ring_ohm", [])) or "",
+         "ohm"),
         ("operating points", int(np.prod(budget.shape)), ""),
     ]
     for axis in AXIS_COLUMNS:

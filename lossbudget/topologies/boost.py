@@ -75,9 +75,11 @@ def steady_state(
     V_in − I_L·R_L − D·I_L·R_sw − x·V_C − D_r·V_f0 − I_out·R_rect − k_dt = 0 with the
     rectifier's share D_r = x·I_out/Q gives −x²(V_C + I_out V_f0/Q) + x(V_in + Q R_sw −
     I_out R_rect − k_dt) − Q(R_L + R_sw) = 0, whose larger root is the normal branch.
-    DCM: I_pk·L·f = (V_in − I_pk(R_L + R_sw)/2)·D = (V_C + V_f0 − V_in + I_pk(R_L + R_rect)/2)·D2
-    and ½·I_pk·D2 = Q, a quadratic in I_pk. Both reduce to M = 1/(1 − D) and the DCM ratio
-    (1 + √(1 + 4D²/K))/2 without losses.
+    DCM: I_pk·L·f = (V_in − I_pk(R_L + R_sw)/2)·D
+    = (V_C + s·V_f0 − V_in + I_pk(R_L + s·R_rect)/2)·D2 with the rectifier's share
+    s = I_out/Q of the falling slope's charge (as in CCM), and ½·I_pk·D2 = Q, a quadratic in
+    I_pk. At D + D2 = 1 it is the CCM solution at zero valley current, so the modes meet.
+    Both reduce to M = 1/(1 − D) and the DCM ratio (1 + √(1 + 4D²/K))/2 without losses.
 
     References
     ----------
@@ -105,12 +107,14 @@ def steady_state(
         iv_c = i_l - 0.5 * di_c
         ipk_c = i_l + 0.5 * di_c
 
-        # DCM: L f I² − 2 Q B I − 2 Q A = 0
+        # DCM: L f I² − 2 Q B I − 2 Q A = 0; the rectifier's drops only over its share of
+        # the falling slope (the rest of the charge is the edge charge of the gap), as in CCM,
+        # so that the two modes meet exactly where the valley current reaches zero
         lf = l * fsw
-        # the gap charge (edge power drawn through the inductor) does not pass the diode: its
-        # forward drop acts on the output's share only, as in CCM (vf0·i_out is its loss)
+        # (the gap charge, edge power drawn through the inductor, does not pass the diode:
+        # its forward drop and slope resistance act on the output's share only)
         big_a = vc + share * vf0 - vin
-        big_b = 0.5 * (r_l + r_rect)
+        big_b = 0.5 * (r_l + share * r_rect)
         ipk_d = (
             q * big_b + np.sqrt(np.maximum(q * q * big_b * big_b + 2.0 * lf * q * big_a, 0.0))
         ) / lf
@@ -126,7 +130,8 @@ def steady_state(
     below = vc <= vin
     no_root = ~dcm & ((disc < 0) | ~(x > 0) | ~(x <= 1.0))
     no_load = bool(dcm_allowed) & ~(i_out > 0)
-    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < 0)
+    # a valley a rounding error below zero is the boundary itself, where the modes meet
+    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < -1e-12 * np.abs(i_pk))
     lim, lim_reason = limit_checks(
         duty, fsw, max_duty=max_duty, min_on_time=min_on_time, min_off_time=min_off_time
     )

@@ -118,7 +118,8 @@ def steady_state(
     below = vc >= vin
     no_root = ~dcm & (~(den > 0) | ~(duty_c < 1.0) | ~(duty_c > 0))
     no_load = bool(dcm_allowed) & ~(i_out > 0)
-    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < 0)
+    # a valley a rounding error below zero is the boundary itself, where the modes meet
+    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < -1e-12 * np.abs(i_pk))
     lim, lim_reason = limit_checks(
         duty, fsw, max_duty=max_duty, min_on_time=min_on_time, min_off_time=min_off_time
     )

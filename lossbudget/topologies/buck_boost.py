@@ -112,7 +112,8 @@ def steady_state(
     i_valley = np.where(dcm, 0.0, i_l - 0.5 * di_c)
     no_root = ~dcm & ((disc < 0) | ~(x > 0) | ~(x <= 1.0))
     no_load = bool(dcm_allowed) & ~(i_out > 0)
-    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < 0)
+    # a valley a rounding error below zero is the boundary itself, where the modes meet
+    no_mode = bool(dcm_allowed) & ~dcm & (i_valley < -1e-12 * np.abs(i_pk))
     lim, lim_reason = limit_checks(
         duty, fsw, max_duty=max_duty, min_on_time=min_on_time, min_off_time=min_off_time
     )
