@@ -408,7 +408,7 @@ def _gate_timing(fet: _Fet, drv) -> tuple:
 
 def _ring_charge(ctx: _Context) -> tuple[float, float]:
     """Charge coefficients of the switch and the opposite device on the C ∝ v^-1/2 law."""
-    return ctx.sw.a or 0.0, ctx.rect.a or 0.0
+    return (0.0 if ctx.sw.a is None else ctx.sw.a), (0.0 if ctx.rect.a is None else ctx.rect.a)
 
 
 def _delta1(ctx: _Context, f, t_l):
@@ -434,7 +434,7 @@ def _ring_q(ctx: _Context, st, *, dcr, t_l, r_loop):
     (SPEC §2.3). Returns (Q, R_ring), or None where the node holds no charge.
     """
     a_s, a_o = _ring_charge(ctx)
-    if a_s + a_o <= 0.0:
+    if np.all(np.asarray(a_s + a_o) <= 0.0):
         return None
     ind = ctx.design.inductor
     l_stage = ctx.l / ind.count
@@ -477,7 +477,7 @@ def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
     it is the CCM hard value. None where the node holds no charge.
     """
     a_s, a_o = _ring_charge(ctx)
-    if a_s + a_o <= 0.0 or q is None:
+    if np.all(np.asarray(a_s + a_o) <= 0.0) or q is None:
         return None
     sw, rc = ctx.sw, ctx.rect
     ae_op = rc.ae if ctx.sync else None
@@ -496,7 +496,13 @@ def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
 
     v_b, v_set, q_s, v_e = at(st.v_switch_block), at(st.v_switch_settled), at(q), at(v)
     t_idle = np.maximum(1.0 - at(st.duty) - at(st.d2), 0.0) / at(fsw)
-    table = rtr.ring_table(a_s / (a_s + a_o))
+    ae_sw = sw.ae
+    if any(np.ndim(x) for x in (a_s, a_o, l_stage, ae_sw, ae_op) if x is not None):
+        # design variants: each point's own charges and inductance
+        a_s, a_o, l_stage = at(a_s), at(a_o), at(l_stage)
+        ae_sw = None if ae_sw is None else at(ae_sw)
+        ae_op = None if ae_op is None else at(ae_op)
+    share = a_s / (a_s + a_o)
     if mode == "averaged":
         # the mean over the last small-signal ring period of the idle interval
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -506,15 +512,41 @@ def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
         lo = np.maximum(t_idle - 2.0 * np.pi / w0, 0.0)
         frac = (np.arange(AVERAGED_SAMPLES) + 0.5) / AVERAGED_SAMPLES
         t = lo[:, None] + (t_idle - lo)[:, None] * frac
+
+        def col(x):
+            return x[:, None] if np.ndim(x) else x
+
         v_set, v_b, q_s, v_e = (x[:, None] for x in (v_set, v_b, q_s, v_e))
+        a_s, a_o, l_stage, share = col(a_s), col(a_o), col(l_stage), col(share)
+        ae_sw = None if ae_sw is None else col(ae_sw)
+        ae_op = None if ae_op is None else col(ae_op)
     else:
         t = t_idle
-    v_on, dec = rtr.ring_state(
-        t, v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o, q=q_s,
-        valley=mode == "valley", table=table,
-    )
+    if np.ndim(share) == 0:
+        v_on, dec = rtr.ring_state(
+            t, v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o, q=q_s,
+            valley=mode == "valley", table=rtr.ring_table(share),
+        )
+    else:
+        # one table per charge split, one call per pair of node charges: a loop over the few
+        # distinct switch and rectifier pairs of the variants, each on its points at once
+        v_on = np.empty(np.shape(t))
+        dec = np.empty(np.shape(t))
+        pair = np.stack([np.broadcast_to(a_s, np.shape(t)).ravel(),
+                         np.broadcast_to(a_o, np.shape(t)).ravel()], axis=1)
+        pairs, which = np.unique(pair, axis=0, return_inverse=True)
+        which = np.asarray(which).reshape(np.shape(t))
+        full = {k: np.broadcast_to(x, np.shape(t)) for k, x in
+                (("v_set", v_set), ("v_block", v_b), ("l", l_stage), ("q", q_s))}
+        for j, (a_self, a_opp) in enumerate(pairs):
+            k = which == j
+            v_on[k], dec[k] = rtr.ring_state(
+                t[k], **{name: x[k] for name, x in full.items()}, a_self=float(a_self),
+                a_opp=float(a_opp), valley=mode == "valley",
+                table=rtr.ring_table(float(a_self / (a_self + a_opp))),
+            )
     on = mos.partial_swing_coss_energy(
-        v_e, v_residual=v_on, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op
+        v_e, v_residual=v_on, a_self=a_s, a_opp=a_o, ae_self=ae_sw, ae_opp=ae_op
     )
     if mode == "averaged":
         on, dec = on.mean(axis=-1), dec.mean(axis=-1)
@@ -1220,7 +1252,7 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     st["inductor", "core"] = ("computed", "") if ind.core else ("not_modelled", "inductor.core")
     if not ctx.dcm_allowed:
         st["inductor", "ring"] = ("not_applicable", "forced-continuous: no DCM idle interval")
-    elif sum(_ring_charge(ctx)) > 0.0:
+    elif np.any(np.asarray(sum(_ring_charge(ctx))) > 0.0):
         st["inductor", "ring"] = ("computed", "")
     else:
         st["inductor", "ring"] = ("not_modelled", "switch.qoss or switch.eoss (node charge)")

@@ -338,3 +338,17 @@ def test_recorded_test_conditions_do_not_split_groups():
     a["rds_on"][0]["v_gs"] = "10 V"
     v = vm.variants(GROW, parts={"switch": [a, b]})
     assert len(v.groups()) == 1
+
+
+@pytest.mark.parametrize("mode", ["ring", "averaged", "valley"])
+def test_variant_solve_equals_each_design_alone_in_dcm_ring_modes(mode):
+    # DCM points (3 % and 8 % load) with switches and rectifiers of different node charge:
+    # the ring tables differ per charge split, each variant must read as its design alone
+    raw = _raw(GROW)
+    raw["operating"]["dcm_turn_on"] = mode
+    v = vm.variants(lb.load_design(raw), parts=GROW_PARTS)
+    vin, frac = [10.0, 14.0], [0.03, 0.08, 1.0]
+    b = lb.sweep(v, vin=vin, load_fraction=frac)
+    assert b.dcm.any()
+    for i in range(0, len(v), 4):
+        _assert_same_budget(b, i, lb.sweep(v.design(i), vin=vin, load_fraction=frac))
