@@ -21,10 +21,10 @@ from lossbudget.design import Corner, Design, Diode, Mosfet
 from lossbudget.errors import DesignError
 from lossbudget.factorial import Variants, stacked_design, take
 from lossbudget.losses import diode as dio
+from lossbudget.losses import edges as edg
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
 from lossbudget.losses import ring as rng
-from lossbudget.losses import ring_trajectory as rtr
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
 from lossbudget.waveforms import integral_extremes_pwl
@@ -46,7 +46,6 @@ THERMAL_TOL = 0.01
 CEILING = 300.0
 ESR_FLOOR = 1e-6
 EDGE_MECHANISMS = ("turn_on", "turn_off", "coss", "dead_time", "reverse_recovery")
-AVERAGED_SAMPLES = 16  # phase samples over one ring period (dcm_turn_on = "averaged")
 
 
 # --------------------------------------------------------------------------------------------
@@ -470,91 +469,28 @@ def _ring_q(ctx: _Context, st, *, dcr, t_l, r_loop):
 def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
     """The DCM node ring at the main switch's turn-on: coss and decay energies per cycle.
 
-    ``dcm_turn_on``: "ring" turns on at the ring's voltage at the end of the idle interval,
-    "valley" at the last valley reached within it, "averaged" takes the mean energy over the
-    last small-signal ring period of the idle interval (a jittering turn-on instant). The
-    switch's coss is the partial-swing charge balance from that voltage, so at zero idle time
-    it is the CCM hard value. None where the node holds no charge.
+    The context's charges, inductance and ``dcm_turn_on`` for
+    :func:`lossbudget.losses.edges.dcm_turn_on_energies`; None where the node holds no charge.
     """
     a_s, a_o = _ring_charge(ctx)
     if np.all(np.asarray(a_s + a_o) <= 0.0) or q is None:
         return None
-    sw, rc = ctx.sw, ctx.rect
-    ae_op = rc.ae if ctx.sync else None
-    l_stage = ctx.l / ctx.design.inductor.count
-    mode = ctx.design.operating.dcm_turn_on
-    dcm = np.broadcast_to(st.dcm, np.shape(v))
-    # CCM points turn on hard from the full edge voltage: the ring's value at zero idle time
-    e_coss = mos.hard_turn_on_coss_energy(v, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op)
-    e_decay = np.zeros(np.shape(v))
-    sel = np.flatnonzero(dcm.ravel())
-    if sel.size == 0:
-        return {"e_coss": e_coss, "e_decay": e_decay}
-
-    def at(x):
-        return np.broadcast_to(x, np.shape(v)).ravel()[sel]
-
-    v_b, v_set, q_s, v_e = at(st.v_switch_block), at(st.v_switch_settled), at(q), at(v)
-    t_idle = np.maximum(1.0 - at(st.duty) - at(st.d2), 0.0) / at(fsw)
-    ae_sw = sw.ae
-    if any(np.ndim(x) for x in (a_s, a_o, l_stage, ae_sw, ae_op) if x is not None):
-        # design variants: each point's own charges and inductance
-        a_s, a_o, l_stage = at(a_s), at(a_o), at(l_stage)
-        ae_sw = None if ae_sw is None else at(ae_sw)
-        ae_op = None if ae_op is None else at(ae_op)
-    share = a_s / (a_s + a_o)
-    if mode == "averaged":
-        # the mean over the last small-signal ring period of the idle interval
-        with np.errstate(invalid="ignore", divide="ignore"):
-            w0 = rng.ring_frequency_small_signal(
-                v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o
-            )
-        lo = np.maximum(t_idle - 2.0 * np.pi / w0, 0.0)
-        frac = (np.arange(AVERAGED_SAMPLES) + 0.5) / AVERAGED_SAMPLES
-        t = lo[:, None] + (t_idle - lo)[:, None] * frac
-
-        def col(x):
-            return x[:, None] if np.ndim(x) else x
-
-        v_set, v_b, q_s, v_e = (x[:, None] for x in (v_set, v_b, q_s, v_e))
-        a_s, a_o, l_stage, share = col(a_s), col(a_o), col(l_stage), col(share)
-        ae_sw = None if ae_sw is None else col(ae_sw)
-        ae_op = None if ae_op is None else col(ae_op)
-    else:
-        t = t_idle
-    if np.ndim(share) == 0:
-        v_on, dec = rtr.ring_state(
-            t, v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o, q=q_s,
-            valley=mode == "valley", table=rtr.ring_table(share),
-        )
-    else:
-        # one table per charge split, one call per pair of node charges: a loop over the few
-        # distinct switch and rectifier pairs of the variants, each on its points at once
-        v_on = np.empty(np.shape(t))
-        dec = np.empty(np.shape(t))
-        pair = np.stack([np.broadcast_to(a_s, np.shape(t)).ravel(),
-                         np.broadcast_to(a_o, np.shape(t)).ravel()], axis=1)
-        pairs, which = np.unique(pair, axis=0, return_inverse=True)
-        which = np.asarray(which).reshape(np.shape(t))
-        full = {k: np.broadcast_to(x, np.shape(t)) for k, x in
-                (("v_set", v_set), ("v_block", v_b), ("l", l_stage), ("q", q_s))}
-        for j, (a_self, a_opp) in enumerate(pairs):
-            k = which == j
-            v_on[k], dec[k] = rtr.ring_state(
-                t[k], **{name: x[k] for name, x in full.items()}, a_self=float(a_self),
-                a_opp=float(a_opp), valley=mode == "valley",
-                table=rtr.ring_table(float(a_self / (a_self + a_opp))),
-            )
-    on = mos.partial_swing_coss_energy(
-        v_e, v_residual=v_on, a_self=a_s, a_opp=a_o, ae_self=ae_sw, ae_opp=ae_op
+    return edg.dcm_turn_on_energies(
+        v,
+        fsw=fsw,
+        dcm=st.dcm,
+        v_block=st.v_switch_block,
+        v_set=st.v_switch_settled,
+        duty=st.duty,
+        d2=st.d2,
+        q=q,
+        l=ctx.l / ctx.design.inductor.count,
+        a_self=a_s,
+        a_opp=a_o,
+        ae_self=ctx.sw.ae,
+        ae_opp=ctx.rect.ae if ctx.sync else None,
+        mode=ctx.design.operating.dcm_turn_on,
     )
-    if mode == "averaged":
-        on, dec = on.mean(axis=-1), dec.mean(axis=-1)
-    e_coss = e_coss.copy().reshape(-1)
-    e_coss[sel] = on
-    e_decay = e_decay.reshape(-1)
-    e_decay[sel] = dec
-    return {"e_coss": e_coss.reshape(np.shape(v)), "e_decay": e_decay.reshape(np.shape(v))}
 
 
 def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, ring_q, reasons=True):
