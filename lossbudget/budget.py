@@ -23,12 +23,13 @@ AXIS_COLUMNS = {
     "fsw": "fsw_hz",
 }
 NAN_FLAGS = ("infeasible", "runaway", "not_converged")
-STRESS_QUANTITIES = ("i_avg", "i_rms", "i_pk", "v_pk", "b_pk", "delta_b")
+STRESS_QUANTITIES = ("i_avg", "i_rms", "i_pk", "v_pk", "v_overshoot", "b_pk", "delta_b")
 STRESS_COLUMNS = {
     "i_avg": "i_avg_a",
     "i_rms": "i_rms_a",
     "i_pk": "i_pk_a",
     "v_pk": "v_pk_v",
+    "v_overshoot": "v_overshoot_v",
     "b_pk": "b_pk_t",
     "delta_b": "delta_b_t",
 }
@@ -73,6 +74,7 @@ class Budget:
     provenance: dict[str, Any]
     source_input_power: np.ndarray = field(repr=False)
     loop_gain: np.ndarray = field(repr=False)
+    over_rating_reason: np.ndarray | None = field(default=None, repr=False)
     diverging_temperatures: dict[str, np.ndarray] = field(default_factory=dict, repr=False)
     variant_labels: tuple[str, ...] | None = None
 
@@ -173,8 +175,16 @@ class Budget:
             raise KeyError(f"no thermal node {node!r}; nodes: {', '.join(self.temperatures)}")
         return self.temperatures[node]
 
+    @property
+    def rating_reasons(self) -> np.ndarray:
+        """Per point, the parts and quantities past an absolute rating ("" where none)."""
+        if self.over_rating_reason is None:
+            return np.full(self.shape, "", dtype=object)
+        return self.over_rating_reason
+
     def stress(self, component: str, quantity: str) -> np.ndarray:
-        """A stress of a component: i_avg, i_rms, i_pk [A], v_pk [V], b_pk, delta_b [T]."""
+        """A stress of a component: i_avg, i_rms, i_pk [A], v_pk, v_overshoot [V], b_pk,
+        delta_b [T]."""
         key = (component, quantity)
         if key not in self.stresses:
             have = sorted({q for c, q in self.stresses if c == component})
@@ -219,6 +229,7 @@ class Budget:
             flag = np.where(self.flags[name], name, flag)
         cols["flag"] = flag.ravel()
         cols["reason"] = self.reason.ravel()
+        cols["over_rating"] = self.rating_reasons.ravel()
         return pd.DataFrame(cols)
 
     def loss_table(self):

@@ -139,6 +139,13 @@ def validate(design: Path) -> None:
     if d.defaults:
         click.echo()
         click.echo(aligned_table(("default applied", "value"), d.defaults))
+    from lossbudget.solver import not_modelled
+
+    missing = not_modelled(d)
+    if missing:
+        click.echo()
+        click.echo(aligned_table(("not modelled", "the key that would enable it"),
+                                 [(f"{c} {m}", key) for c, m, key in missing]))
     for line in d.warnings:
         click.echo(f"warning: {line}", err=True)
 

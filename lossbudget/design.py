@@ -181,23 +181,33 @@ class Mosfet:
 
     kind: Literal["mosfet"] = "mosfet"
     count: int = 1
-    vds_rated: float
+    vds_rated: float | None = None
     rds_on: Curve
     rds_on_v_gs: float | None = None
-    v_th: float
-    v_plateau: float
-    qg: Value
-    qgs: Value
-    qgd: Value
+    v_th: float | None = None
+    v_plateau: float | None = None
+    qg: Value | None = None
+    qgs: Value | None = None
+    qgd: Value | None = None
     qgs2: Value | None = None
-    rg: float
+    rg: float = 0.0
+    loop_inductance: float | None = None
     qoss: AtVoltage | None = None
     eoss: AtVoltage | None = None
     eon: ReferenceEnergy | None = None
     eoff: ReferenceEnergy | None = None
     body_diode: BodyDiode | None = None
-    tj_max: float
+    tj_max: float | None = None
     thermal: PartThermal
+
+    @property
+    def has_gate_timing(self) -> bool:
+        """True when the gate charges give the transition times (SPEC §2.3)."""
+        return (
+            self.v_plateau is not None
+            and self.qgd is not None
+            and (self.qgs2 is not None or (self.qgs is not None and self.v_th is not None))
+        )
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -206,14 +216,14 @@ class Diode:
 
     kind: Literal["diode"] = "diode"
     count: int = 1
-    vr_rated: float
+    vr_rated: float | None = None
     vf0: Curve
     rd: Curve
     qc: AtVoltage | None = None
     qrr: Recovery | None = None
     erec: Value | None = None
     leakage: Leakage | None = None
-    tj_max: float
+    tj_max: float | None = None
     thermal: PartThermal
 
 
@@ -221,15 +231,20 @@ class Diode:
 class Driver:
     """Gate driver and controller bias."""
 
-    v_drive: float
-    r_source: float
-    r_sink: float
-    rg_on: float
-    rg_off: float
-    supply: DriverSupply
+    v_drive: float = math.nan
+    r_source: float = math.nan
+    r_sink: float = math.nan
+    rg_on: float = 0.0
+    rg_off: float = 0.0
+    supply: DriverSupply = "aux"
     v_aux: float | None = None
-    quiescent: float = 0.0
+    quiescent: float = math.nan
     dead_time: float | None = None
+
+    @property
+    def given(self) -> bool:
+        """True when the drive voltage and the driver's resistances are given."""
+        return all(math.isfinite(x) for x in (self.v_drive, self.r_source, self.r_sink))
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -265,10 +280,12 @@ class Inductor:
 
     count: int = 1
     l: Value
+    l_at_i: tuple[float, ...] = ()
+    l_points: tuple[Value, ...] = ()
     dcr: Value
     dcr_at: float
     i_sat: Curve | None = None
-    t_max: float
+    t_max: float | None = None
     core: Core | None = None
     winding: Winding | None = None
     thermal: PartThermal
@@ -303,9 +320,9 @@ class Capacitor:
     esr: Curve
     esr_at_f: float | None = None
     count: int = 1
-    v_rated: float
+    v_rated: float | None = None
     i_ripple_rated: RippleRating | None = None
-    t_max: float
+    t_max: float | None = None
     life: Life | None = None
     thermal: PartThermal
 
@@ -906,20 +923,10 @@ _MOSFET_ALLOWED = (
     "eoff",
     "body_diode",
     "tj_max",
+    "loop_inductance",
     "thermal",
 )
-_MOSFET_REQUIRED = (
-    "vds_rated",
-    "rds_on",
-    "v_th",
-    "v_plateau",
-    "qg",
-    "qgs",
-    "qgd",
-    "rg",
-    "tj_max",
-    "thermal",
-)
+_MOSFET_REQUIRED = ("rds_on", "thermal")
 
 
 def _mosfet(
@@ -929,7 +936,7 @@ def _mosfet(
     if tab is None:
         return None
     count = rd.integer(tab, "count", path, default=1)
-    vds = rd.required(tab, "vds_rated", path, dim_key="switch.vds_rated")
+    vds = rd.optional(tab, "vds_rated", path, dim_key="switch.vds_rated")
     rds = None
     v_gs = None
     if "rds_on" in tab:
@@ -940,9 +947,11 @@ def _mosfet(
             rds, extras = got
             v_gs = next((e["v_gs"] for e in extras if e.get("v_gs") is not None), None)
     g = {
-        k: rd.required(tab, k, path, dim_key=f"switch.{k}")
-        for k in ("v_th", "v_plateau", "rg", "tj_max")
+        k: rd.optional(tab, k, path, dim_key=f"switch.{k}")
+        for k in ("v_th", "v_plateau", "rg", "tj_max", "loop_inductance")
     }
+    if g["rg"] is None and "rg" not in tab and ("qg" in tab or "qgd" in tab):
+        rd.default(_join(path, "rg"), "0 ohm (no internal gate resistance)")
     q = {
         k: (rd.value(tab[k], _join(path, k), dim_key=f"switch.{k}") if k in tab else None)
         for k in ("qg", "qgs", "qgd", "qgs2")
@@ -982,8 +991,15 @@ def _mosfet(
         if "thermal" in tab
         else None
     )
-    needed = [count, vds, rds, thermal, *g.values(), q["qg"], q["qgs"], q["qgd"]]
-    if any(x is None for x in needed):
+    if g["loop_inductance"] is not None and sync:
+        rd.problem(
+            _join(path, "loop_inductance"),
+            "applies to [switch]: the commutation loop's overshoot at the main switch's "
+            "turn-off",
+        )
+    read = {**g, **q, "vds_rated": vds}
+    unreadable = [k for k, x in read.items() if k in tab and x is None]
+    if count is None or rds is None or thermal is None or unreadable:
         return None
     return Mosfet(
         count=count,
@@ -996,7 +1012,8 @@ def _mosfet(
         qgs=q["qgs"],
         qgd=q["qgd"],
         qgs2=q["qgs2"],
-        rg=g["rg"],
+        rg=g["rg"] if g["rg"] is not None else 0.0,
+        loop_inductance=g["loop_inductance"],
         qoss=qoss,
         eoss=eoss,
         eon=eon,
@@ -1023,22 +1040,22 @@ _DIODE_ALLOWED = (
 
 def _diode(rd: _Reader, raw: Any, path: str, *, iout: float | None = None) -> Diode | None:
     tab = rd.table(
-        raw, path, allowed=_DIODE_ALLOWED, required=("vr_rated", "vf0", "rd", "tj_max", "thermal")
+        raw, path, allowed=_DIODE_ALLOWED, required=("vf0", "thermal")
     )
     if tab is None:
         return None
     count = rd.integer(tab, "count", path, default=1)
-    vr = rd.required(tab, "vr_rated", path, dim_key="rectifier.vr_rated")
+    vr = rd.optional(tab, "vr_rated", path, dim_key="rectifier.vr_rated")
     vf0 = (
         rd.curve(tab["vf0"], _join(path, "vf0"), letter="v", nonnegative=True)
         if "vf0" in tab
         else None
     )
-    rdd = (
-        rd.curve(tab["rd"], _join(path, "rd"), letter="r", nonnegative=True)
-        if "rd" in tab
-        else None
-    )
+    if "rd" in tab:
+        rdd = rd.curve(tab["rd"], _join(path, "rd"), letter="r", nonnegative=True)
+    else:
+        rdd = (Curve(t=(T_REF_DEFAULT,), typ=(0.0,), worst=(0.0,)), [{}])
+        rd.default(_join(path, "rd"), "0 ohm (forward drop vf0 only)")
     qc = _at_voltage(rd, tab["qc"], _join(path, "qc"), "q") if "qc" in tab else None
     qrr = _recovery(rd, tab["qrr"], _join(path, "qrr"), iout=iout) if "qrr" in tab else None
     erec = (
@@ -1070,13 +1087,15 @@ def _diode(rd: _Reader, raw: Any, path: str, *, iout: float | None = None) -> Di
                 rd.default(_join(lpath, "doubles_every"), "10 K (common practice)")
             if None not in (i, at, at_v, dbl):
                 leak = Leakage(i=i, at=at, at_v=at_v, doubles_every=dbl)
-    tj = rd.required(tab, "tj_max", path, dim_key="rectifier.tj_max")
+    tj = rd.optional(tab, "tj_max", path, dim_key="rectifier.tj_max")
     thermal = (
         _thermal(rd, tab["thermal"], _join(path, "thermal"), semiconductor=True)
         if "thermal" in tab
         else None
     )
-    if any(x is None for x in (count, vr, vf0, rdd, tj, thermal)):
+    if any(x is None for x in (count, vf0, rdd, thermal)) or any(
+        k in tab and x is None for k, x in (("vr_rated", vr), ("tj_max", tj))
+    ):
         return None
     return Diode(
         count=count,
@@ -1231,11 +1250,15 @@ def _driver(rd: _Reader, raw: Any, rect_kind: str | None) -> Driver | None:
             "quiescent",
             "dead_time",
         ),
-        required=("v_drive", "r_source", "r_sink"),
     )
     if tab is None:
         return None
     vals = {k: rd.optional(tab, k, path) for k in ("v_drive", "r_source", "r_sink")}
+    absent = [k for k in vals if k not in tab]
+    if absent:
+        rd.default(f"driver.{absent[0]}" if len(absent) == 1 else "driver",
+                   f"{', '.join(absent)} not given: switching edges from gate charges and the "
+                   "gate drive not modelled")
     for k in ("rg_on", "rg_off"):
         if k in tab:
             vals[k] = rd.quantity(tab[k], f"driver.{k}", nonnegative=True)
@@ -1257,12 +1280,12 @@ def _driver(rd: _Reader, raw: Any, rect_kind: str | None) -> Driver | None:
         )
     if rect_kind == "sync" and "dead_time" not in tab:
         rd.default("driver.dead_time", "not given: dead-time conduction not modelled")
-    if any(vals[k] is None for k in vals) or supply is None:
+    if any(vals[k] is None and k in tab for k in vals) or supply is None:
         return None
     return Driver(
-        v_drive=vals["v_drive"],
-        r_source=vals["r_source"],
-        r_sink=vals["r_sink"],
+        v_drive=_or_nan(vals["v_drive"]),
+        r_source=_or_nan(vals["r_source"]),
+        r_sink=_or_nan(vals["r_sink"]),
         rg_on=vals["rg_on"],
         rg_off=vals["rg_off"],
         supply=supply,
@@ -1272,20 +1295,31 @@ def _driver(rd: _Reader, raw: Any, rect_kind: str | None) -> Driver | None:
     )
 
 
+def _or_nan(x: float | None) -> float:
+    return math.nan if x is None else x
+
+
 def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
     path = "inductor"
     tab = rd.table(
         raw,
         path,
         allowed=("count", "l", "dcr", "i_sat", "t_max", "core", "winding", "thermal"),
-        required=("l", "dcr", "t_max", "thermal"),
+        required=("l", "dcr", "thermal"),
     )
     if tab is None:
         return None
     count = rd.integer(tab, "count", path, default=1)
-    l_val = (
-        rd.value(tab["l"], "inductor.l", dim_key="inductor.l", worse="min") if "l" in tab else None
-    )
+    l_val = None
+    l_at_i: tuple[float, ...] = ()
+    l_points: tuple[Value, ...] = ()
+    if isinstance(tab.get("l"), list):
+        got = _inductance_curve(rd, tab["l"])
+        if got is not None:
+            l_at_i, l_points = got
+            l_val = l_points[0]
+    elif "l" in tab:
+        l_val = rd.value(tab["l"], "inductor.l", dim_key="inductor.l", worse="min")
     dcr = None
     dcr_at = T_REF_DEFAULT
     if "dcr" in tab:
@@ -1297,7 +1331,7 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
         i_sat = got[0] if got else None
         if i_sat is not None and not _i_sat_stays_positive(rd, i_sat):
             i_sat = None
-    t_max = rd.required(tab, "t_max", path)
+    t_max = rd.optional(tab, "t_max", path)
     core = _core(rd, tab["core"]) if "core" in tab else None
     winding = _winding(rd, tab["winding"]) if "winding" in tab else None
     thermal = (
@@ -1305,7 +1339,9 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
         if "thermal" in tab
         else None
     )
-    if any(x is None for x in (count, l_val, dcr, dcr_at, t_max, thermal)):
+    if any(x is None for x in (count, l_val, dcr, dcr_at, thermal)) or (
+        "t_max" in tab and t_max is None
+    ):
         return None
     if "core" in tab and core is None:
         return None
@@ -1314,6 +1350,8 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
     return Inductor(
         count=count,
         l=l_val,
+        l_at_i=l_at_i,
+        l_points=l_points,
         dcr=dcr,
         dcr_at=dcr_at,
         i_sat=i_sat,
@@ -1322,6 +1360,39 @@ def _inductor(rd: _Reader, raw: Any) -> Inductor | None:
         winding=winding,
         thermal=thermal,
     )
+
+
+def _inductance_curve(rd: _Reader, raw: list) -> tuple[tuple[float, ...], tuple[Value, ...]] | None:
+    """``l = [{ l, at_i }, ...]``: the inductance over the current (a swinging choke)."""
+    if not raw:
+        rd.problem("inductor.l", "expected at least one { l, at_i } point")
+        return None
+    pts: list[tuple[float, Value]] = []
+    for n, point in enumerate(raw):
+        ppath = f"inductor.l[{n}]"
+        if not isinstance(point, dict):
+            rd.problem(ppath, f"expected a table {{ l, at_i }}, got {_show(point)}")
+            continue
+        if not rd.corner_keys(point, ppath, allowed=("l", "at_i"), worse="min"):
+            continue
+        if "l" not in point or "at_i" not in point:
+            rd.problem(ppath, "expected both l and at_i")
+            continue
+        v = rd.corner(point, ppath, "l", dim_key="inductor.l", worse="min")
+        i = rd.quantity(point["at_i"], _join(ppath, "at_i"), dim_key="inductor.l[].at_i",
+                        nonnegative=True)
+        if v is not None and i is not None:
+            pts.append((i, v))
+    if len(pts) != len(raw):
+        return None
+    if len({i for i, _ in pts}) != len(pts):
+        rd.problem("inductor.l", "expected points at distinct currents (at_i)")
+        return None
+    pts.sort(key=lambda p: p[0])
+    rd.default("inductor.l", "a curve over the current: taken at the mean inductor current "
+               "per part (the DC bias), linear between the points, held outside them; the "
+               "peak flux integrates the curve up to the peak current")
+    return tuple(i for i, _ in pts), tuple(v for _, v in pts)
 
 
 T_HOTTEST = 300.0
@@ -1539,7 +1610,7 @@ def _capacitor(rd: _Reader, raw: Any, path: str) -> Capacitor | None:
             "life",
             "thermal",
         ),
-        required=("name", "position", "c", "esr", "v_rated", "t_max", "thermal"),
+        required=("name", "position", "c", "esr", "thermal"),
     )
     if tab is None:
         return None
@@ -1588,7 +1659,7 @@ def _capacitor(rd: _Reader, raw: Any, path: str) -> Capacitor | None:
             esr_f = next((e["at_f"] for e in got[1] if e.get("at_f") is not None), None)
             if esr_f is None:
                 rd.default(_join(path, "esr.at_f"), "not given: taken as valid at every harmonic")
-    v_rated = rd.required(tab, "v_rated", path, dim_key="capacitor.v_rated")
+    v_rated = rd.optional(tab, "v_rated", path, dim_key="capacitor.v_rated")
     ripple = None
     if "i_ripple_rated" in tab:
         rpath = _join(path, "i_ripple_rated")
@@ -1603,7 +1674,7 @@ def _capacitor(rd: _Reader, raw: Any, path: str) -> Capacitor | None:
                     at_f=f if f is not None else math.nan,
                     at=at if at is not None else math.nan,
                 )
-    t_max = rd.required(tab, "t_max", path, dim_key="capacitor.t_max")
+    t_max = rd.optional(tab, "t_max", path, dim_key="capacitor.t_max")
     life = None
     if "life" in tab:
         lpath = _join(path, "life")
@@ -1624,7 +1695,9 @@ def _capacitor(rd: _Reader, raw: Any, path: str) -> Capacitor | None:
     if name is not None and name in RESERVED_NAMES:
         rd.problem(_join(path, "name"), f"{name!r} is reserved; choose another name")
         name = None
-    if any(x is None for x in (name, pos, count, c, esr, v_rated, t_max, thermal)):
+    if any(x is None for x in (name, pos, count, c, esr, thermal)) or any(
+        k in tab and x is None for k, x in (("v_rated", v_rated), ("t_max", t_max))
+    ):
         return None
     return Capacitor(
         name=name,
@@ -1818,7 +1891,7 @@ def load_design(source: str | Path | dict) -> Design:
         raw,
         "",
         allowed=_TOP,
-        required=("design", "operating", "switch", "driver", "rectifier", "inductor", "capacitor"),
+        required=("design", "operating", "switch", "rectifier", "inductor", "capacitor"),
     )
     if top is None:
         raise DesignError(rd.problems)
@@ -1856,7 +1929,12 @@ def load_design(source: str | Path | dict) -> Design:
     switch = (
         _mosfet(rd, top["switch"], "switch", sync=False, iout=iout) if "switch" in top else None
     )
-    driver = _driver(rd, top["driver"], rect) if "driver" in top else None
+    if "driver" in top:
+        driver = _driver(rd, top["driver"], rect)
+    else:
+        driver = Driver()
+        rd.default("driver", "not given: switching edges from gate charges and the gate drive "
+                   "not modelled")
     rectifier = None
     if "rectifier" in top and rect is not None:
         rectifier = (
@@ -1946,6 +2024,8 @@ def _check_gate_drive(
         return
     for path, fet in fets.items():
         if not isinstance(fet, Mosfet):
+            continue
+        if not math.isfinite(driver.v_drive) or fet.v_plateau is None:
             continue
         if driver.v_drive <= fet.v_plateau:
             rd.problem(

@@ -50,7 +50,7 @@ DEFAULT_BUDGET = 10_000
 SLOTS = ("switch", "rectifier", "inductor")
 PART_EXTRA = ("name", "cost", "area")
 # fields that change the structure of the computation (not mere factors): equal within a group
-STRUCTURAL = frozenset({"layers", "c_bias", "includes"})
+STRUCTURAL = frozenset({"layers", "c_bias", "includes", "l_at_i", "l_points"})
 # fields the engine only records (the datasheet's test conditions): never split a group
 RECORDED = frozenset({"rds_on_v_gs"})
 
@@ -636,5 +636,7 @@ def take(obj, index: np.ndarray):
     if isinstance(obj, tuple) and any(isinstance(v, np.ndarray) or dataclasses.is_dataclass(v)
                                       for v in obj):
         return tuple(take(v, index) for v in obj)
+    if isinstance(obj, dict):
+        return {k: take(v, index) for k, v in obj.items()}
     return obj
 

@@ -15,7 +15,6 @@ lies inside an axis. The result is a :class:`LimitReport`.
 from __future__ import annotations
 
 import tomllib
-from collections.abc import Callable
 from dataclasses import dataclass, field
 from importlib import resources
 from typing import Any, Literal
@@ -26,6 +25,7 @@ from lossbudget.budget import AXES, AXIS_COLUMNS, Budget
 from lossbudget.cautions import CAUTIONS
 from lossbudget.design import DERATING_PROFILES, MARGIN_QUANTITIES, Corner, Design, Diode
 from lossbudget.errors import DesignError
+from lossbudget.ratings import Rating, full_where_solved, i_sat_at, part_ratings, per_variant
 from lossbudget.solver import solve
 from lossbudget.sweep import sweep
 from lossbudget.units import format_quantity
@@ -195,6 +195,8 @@ def temperature_design_limits(design: Design, *, derating: str | None = None
         parts.append((cap.name, kind, "t_hot", cap.t_max))
     out: dict[str, tuple[float, str]] = {}
     for name, kind, qty, absolute in parts:
+        if absolute is None:
+            continue  # no limit given: not checked
         margin = rows.get((kind, qty))
         if margin is None:
             out[name] = (absolute, "absolute limit (no margin in the profile)")
@@ -233,65 +235,6 @@ def electrolytic_life_10k(t_hot, *, rated, at):
     """
     t_hot = np.asarray(t_hot, dtype=float)
     return rated * np.exp2((at - t_hot) / 10.0)
-
-
-def i_sat_at(t, *, points_t, points_i):
-    """Saturation current at a temperature through the datasheet points.
-
-    Parameters
-    ----------
-    t : array_like
-        Inductor (hot-spot) temperature. [degC]
-    points_t : sequence of float
-        Temperatures of the datasheet points, ascending. [degC]
-    points_i : sequence of float
-        Saturation currents at those temperatures. [A]
-
-    Returns
-    -------
-    ndarray
-        Saturation current, never below zero. [A]
-
-    Notes
-    -----
-    Linear between the points; below the coldest point it keeps the coldest value (no credit
-    for cold), above the hottest it continues the last segment's slope (saturation keeps
-    falling when hot). A single point is a constant.
-
-    References
-    ----------
-    .. [1] Peak current against i_sat(T): R. W. Erickson, D. Maksimović, *Fundamentals of
-       Power Electronics*, 2nd ed., 2001, inductor design chapter (B_max = L·I_max/(n·A_c));
-       the interpolation is common practice.
-    """
-    t = np.asarray(t, dtype=float)
-    pt = np.asarray(points_t, dtype=float)
-    pi = np.asarray(points_i, dtype=float)
-    if pt.ndim > 1 or pi.ndim > 1:
-        # one table per point (design variants): the same rule, the points on the last axis
-        if pt.shape[-1] == 1:
-            return np.broadcast_to(np.maximum(pi[..., 0], 0.0), np.broadcast_shapes(
-                t.shape, pi.shape[:-1])).copy()
-        slope = (pi[..., -1] - pi[..., -2]) / (pt[..., -1] - pt[..., -2])
-        below = t < pt[..., 0]
-        seg = np.clip(np.sum(t[..., np.newaxis] >= pt, axis=-1) - 1, 0, pt.shape[-1] - 2)
-        shape = np.broadcast_shapes(t.shape, pt.shape[:-1], pi.shape[:-1])
-
-        def at(tab, k):
-            full = np.broadcast_to(tab, (*shape, tab.shape[-1]))
-            return np.take_along_axis(full, np.broadcast_to(k, shape)[..., np.newaxis],
-                                      axis=-1)[..., 0]
-
-        slopes = np.diff(pi, axis=-1) / np.diff(pt, axis=-1)
-        inner = at(pi, seg) + at(slopes, seg) * (t - at(pt, seg))
-        hot = pi[..., -1] + slope * (t - pt[..., -1])
-        value = np.where(below, pi[..., 0], np.where(t > pt[..., -1], hot, inner))
-        return np.maximum(value, 0.0)
-    if pt.size == 1:
-        return np.full(t.shape, pi[0])
-    slope = (pi[-1] - pi[-2]) / (pt[-1] - pt[-2])
-    hot = pi[-1] + slope * (t - pt[-1])
-    return np.maximum(np.where(t > pt[-1], hot, np.interp(t, pt, pi)), 0.0)
 
 
 # --------------------------------------------------------------------------------------------
@@ -364,22 +307,7 @@ class LimitReport:
 # the checks
 # --------------------------------------------------------------------------------------------
 
-Measure = Callable[[Budget], tuple[np.ndarray, np.ndarray]]
-
-
-@dataclass(frozen=True, slots=True, kw_only=True)
-class _Check:
-    part: str
-    quantity: str
-    unit: str
-    kind: str | None  # derating kind (None: no derating row, e.g. life)
-    measure: Measure  # budget -> (value, absolute limit), arrays of the budget's shape
-    lower_is_worse: bool = False
-    note: Callable[[Budget, int], str] | None = None  # budget, flat index of the worst
-    tie: Callable[[Budget], np.ndarray] | None = None  # among equal worst values, the largest
-
-
-def _argworst(check: _Check, key: np.ndarray, b: Budget, part: slice = slice(None)) -> int:
+def _argworst(check: Rating, key: np.ndarray, b: Budget, part: slice = slice(None)) -> int:
     """Flat index (within ``part``) of the worst point; ties go to the largest ``tie`` value."""
     k = key[part]
     j = int(np.nanargmax(k))
@@ -390,7 +318,7 @@ def _argworst(check: _Check, key: np.ndarray, b: Budget, part: slice = slice(Non
     return int(top[np.nanargmax(second)]) if np.any(np.isfinite(second)) else j
 
 
-def _key(check: _Check, value: np.ndarray, absolute: np.ndarray) -> np.ndarray:
+def _key(check: Rating, value: np.ndarray, absolute: np.ndarray) -> np.ndarray:
     """Ranking of the points for one check: larger is worse; NaN where not evaluated."""
     with np.errstate(invalid="ignore", divide="ignore"):
         if check.lower_is_worse:
@@ -400,133 +328,20 @@ def _key(check: _Check, value: np.ndarray, absolute: np.ndarray) -> np.ndarray:
         return value / absolute
 
 
-def _full(b: Budget, x: float) -> np.ndarray:
-    if np.ndim(x):  # one value per design variant, the budget's first axis
-        return np.where(b.flagged, np.nan, _lead(x, b))
-    return np.where(b.flagged, np.nan, float(x))
-
-
-def _lead(x, b: Budget, trailing: int = 0) -> np.ndarray:
-    """Per-variant values shaped to broadcast along a variant budget's first axis."""
-    x = np.asarray(x, dtype=float)
-    if x.ndim == trailing:
-        return x
-    tail = x.shape[x.ndim - trailing:] if trailing else ()
-    return x.reshape((x.shape[0],) + (1,) * (len(b.shape) - 1) + tail)
-
-
 def _q(x: float, dim: str) -> str:
     if dim == "duration":
         return f"{x:,.0f} h"
     return format_quantity(x, dim, digits=4)
 
 
-def _checks(design: Design, corner: Corner) -> tuple[list[_Check], list[tuple[str, str, str]]]:
-    """The checks of a design and the limits it cannot check (part, quantity, missing key)."""
-    checks: list[_Check] = []
-    missing: list[tuple[str, str, str]] = []
-    spike = design.limits.v_spike
+def _checks(design: Design, corner: Corner) -> tuple[list[Rating], list[tuple[str, str, str]]]:
+    """The checks of a design and the limits it cannot check (part, quantity, missing key).
 
-    def blocking_note(part: str) -> Callable[[Budget, int], str]:
-        def note(b: Budget, k: int) -> str:
-            v = float(b.stress(part, "v_pk").ravel()[k])
-            return (f"peak blocking voltage {_q(v, 'voltage')} + limits.v_spike "
-                    f"{_q(spike, 'voltage')}")
-        return note
-
-    for part, dev in (("switch", design.switch), ("rectifier", design.rectifier)):
-        kind = "diode" if isinstance(dev, Diode) else "mosfet"
-        rated = dev.vr_rated if isinstance(dev, Diode) else dev.vds_rated
-        checks.append(_Check(
-            part=part, quantity="t_j", unit="degC", kind=kind,
-            measure=lambda b, p=part, lim=dev.tj_max: (b.temperature(p), _full(b, lim)),
-        ))
-        checks.append(_Check(
-            part=part, quantity="v_pk", unit="V", kind=kind,
-            measure=lambda b, p=part, lim=rated: (b.stress(p, "v_pk") + spike, _full(b, lim)),
-            note=blocking_note(part),
-        ))
-
-    ind = design.inductor
-    checks.append(_Check(
-        part="inductor", quantity="t_hot", unit="degC", kind="inductor",
-        measure=lambda b: (b.temperature("inductor"), _full(b, ind.t_max)),
-    ))
-    if ind.i_sat is not None:
-        pts_t, pts_i = ind.i_sat.t, ind.i_sat.pick(corner)
-
-        def i_sat(b: Budget) -> np.ndarray:
-            return i_sat_at(b.temperature("inductor"), points_t=_lead(pts_t, b, 1),
-                            points_i=_lead(pts_i, b, 1))
-
-        def sat_note(b: Budget, k: int, what: str) -> str:
-            t = float(b.temperature("inductor").ravel()[k])
-            extra = ", extrapolated above the hottest point" if t > np.max(pts_t) else ""
-            return (f"{what} against i_sat at the inductor's {_q(t, 'temperature')} "
-                    f"({corner}-case i_sat points, interpolated{extra})")
-
-        checks.append(_Check(
-            part="inductor", quantity="i_pk", unit="A", kind="inductor",
-            measure=lambda b: (b.stress("inductor", "i_pk"), i_sat(b)),
-            note=lambda b, k: sat_note(b, k, "peak current per part"),
-        ))
-        if design.operating.i_limit is not None:
-            i_lim = design.operating.i_limit / ind.count
-            checks.append(_Check(
-                part="inductor", quantity="i_limit", unit="A", kind="inductor",
-                measure=lambda b: (_full(b, i_lim), i_sat(b)),
-                tie=lambda b: b.temperature("inductor"),
-                note=lambda b, k: sat_note(
-                    b, k, f"operating.i_limit {_q(i_lim, 'current')} per part (reached in a "
-                    "transient)"),
-            ))
-        else:
-            missing.append(("inductor", "i_limit", "operating.i_limit"))
-    else:
-        missing.append(("inductor", "i_pk", "inductor.i_sat"))
-    if ind.core is not None and ind.core.b_sat is not None:
-        b_sat = ind.core.b_sat
-        checks.append(_Check(
-            part="inductor", quantity="b_pk", unit="T", kind="inductor",
-            measure=lambda b: (b.stress("inductor", "b_pk"), _full(b, b_sat)),
-        ))
-    else:
-        missing.append(("inductor", "b_pk", "inductor.core.b_sat"))
-
+    The ratings measured at every point (:func:`lossbudget.ratings.part_ratings`) and each
+    electrolytic's life.
+    """
+    checks, missing = part_ratings(design, corner)
     for cap in design.capacitors:
-        kind = "electrolytic" if cap.life is not None else "capacitor"
-        out = cap.position == "output"
-
-        def v_cap(b: Budget, name=cap.name, out=out) -> np.ndarray:
-            v = b.stress(name, "v_pk")
-            return v + 0.5 * b.vout_pp if out else v
-
-        checks.append(_Check(
-            part=cap.name, quantity="v_pk", unit="V", kind=kind,
-            measure=lambda b, f=v_cap, lim=cap.v_rated: (f(b), _full(b, lim)),
-            note=lambda b, k, out=out: (
-                ("bank voltage plus half the output ripple" if out else "DC bank voltage")
-                + "; v_spike not added (the ringing is at the switch node)"),
-        ))
-        rr = cap.i_ripple_rated
-        if rr is not None:
-            at_f = _q(rr.at_f, "frequency") if rr.at_f is not None else "an unstated frequency"
-            at_t = _q(rr.at, "temperature") if rr.at is not None else "an unstated temperature"
-            text = (f"per part; rated {_q(rr.i, 'current')} at {at_f}, {at_t}; frequency and "
-                    "temperature multipliers are vendor-specific and not applied")
-            checks.append(_Check(
-                part=cap.name, quantity="i_rms", unit="A", kind=kind,
-                measure=lambda b, name=cap.name, lim=rr.i: (b.stress(name, "i_rms"),
-                                                            _full(b, lim)),
-                note=lambda b, k, text=text: text,
-            ))
-        else:
-            missing.append((cap.name, "i_rms", "capacitor.i_ripple_rated"))
-        checks.append(_Check(
-            part=cap.name, quantity="t_hot", unit="degC", kind=kind,
-            measure=lambda b, name=cap.name, lim=cap.t_max: (b.temperature(name),
-                                                             _full(b, lim)),
-        ))
         life = cap.life
         if life is not None and life.required is not None:
 
@@ -538,12 +353,13 @@ def _checks(design: Design, corner: Corner) -> tuple[list[_Check], list[tuple[st
                     text += "; above the rated temperature, where the rule does not hold"
                 return text
 
-            checks.append(_Check(
+            checks.append(Rating(
                 part=cap.name, quantity="life", unit="h", kind=None, lower_is_worse=True,
+                label="life under life.required", per_point=False,
                 measure=lambda b, name=cap.name, life=life: (
-                    electrolytic_life_10k(b.temperature(name), rated=_lead(life.rated, b),
-                                          at=_lead(life.at, b)),
-                    _full(b, life.required)),
+                    electrolytic_life_10k(b.temperature(name), rated=per_variant(life.rated, b),
+                                          at=per_variant(life.at, b)),
+                    full_where_solved(b, life.required)),
                 note=life_note,
             ))
         elif life is not None:
@@ -587,7 +403,7 @@ def _tolerance(design: Design, axes: dict[str, np.ndarray]) -> dict[str, float]:
 class _Search:
     """The state of one check's refinement."""
 
-    check: _Check
+    check: Rating
     key: float
     point: dict[str, float]
     value: float
@@ -596,7 +412,7 @@ class _Search:
     brackets: dict[str, tuple[float, float]]  # axes still refined: (low, high)
 
 
-def _evaluate(check: _Check, b: Budget) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _evaluate(check: Rating, b: Budget) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     value, absolute = check.measure(b)
     value = np.broadcast_to(value, b.shape).ravel()
     absolute = np.broadcast_to(absolute, b.shape).ravel()
@@ -659,7 +475,64 @@ def _refine(design: Design, searches: list[_Search], axes: dict[str, np.ndarray]
     return solved
 
 
-def _status(check: _Check, worst: float, design_limit: float, absolute: float) -> Status:
+def _judged(check: Rating, value: float, absolute: float,
+            margins: dict[tuple[str, str], Margin]) -> dict[str, Any]:
+    """The design limit after derating, its basis, the margin and the status of one value."""
+    if check.kind is None:
+        design_limit, basis = absolute, LIFE_BASIS
+    else:
+        m = margins[check.kind, check.quantity]
+        design_limit, basis = float(m.design_limit(absolute)), m.basis
+    with np.errstate(invalid="ignore", divide="ignore"):
+        if check.unit == "degC":
+            margin, margin_unit = design_limit - value, "K"
+        elif check.lower_is_worse:
+            margin, margin_unit = (value - design_limit) / design_limit, "fraction"
+        else:
+            margin, margin_unit = (design_limit - value) / design_limit, "fraction"
+    return {"design_limit": design_limit, "basis": basis, "margin": float(margin),
+            "margin_unit": margin_unit,
+            "status": _status(check, value, design_limit, absolute)}
+
+
+def point_ratings(design: Design, budget: Budget, *, index: int = 0,
+                  derating: str | None = None) -> tuple[list[LimitRow], list[tuple[str, str, str]]]:
+    """Every rating of one solved point, judged as the envelope check judges it.
+
+    Parameters
+    ----------
+    design : Design
+        The design the budget was solved from.
+    budget : Budget
+        A solved budget; ``index`` picks the point (flat index).
+    derating : str, optional
+        Derating profile; the design's ``limits.derating`` when omitted.
+
+    Returns
+    -------
+    tuple
+        A :class:`LimitRow` per rating measured at points (value, design limit after
+        derating, absolute rating, margin, status, basis, note), and the ratings the design
+        does not give (part, quantity, the key that would enable it).
+    """
+    _, margins = _margins_for(design, derating)
+    ratings, missing = part_ratings(design, budget.provenance.get("corner", "typ"))
+    coords = _flat_coords(budget)
+    rows = []
+    for r in ratings:
+        if not r.per_point:
+            continue
+        value, absolute, _ = _evaluate(r, budget)
+        v, a = float(value[index]), float(absolute[index])
+        rows.append(LimitRow(
+            part=r.part, quantity=r.quantity, unit=r.unit, worst=v,
+            where={ax: float(coords[ax][index]) for ax in AXES}, absolute_limit=a,
+            note=r.note(budget, index) if r.note else "", **_judged(r, v, a, margins),
+        ))
+    return rows, missing
+
+
+def _status(check: Rating, worst: float, design_limit: float, absolute: float) -> Status:
     if not np.isfinite(worst):
         return "fail"
     if check.lower_is_worse:
@@ -826,7 +699,7 @@ def check_limits(design: Design, *, derating: str | None = None,
     varying = tuple(a for a in AXES if axes[a].size > 1)
 
     searches: list[_Search] = []
-    unevaluated: list[_Check] = []
+    unevaluated: list[Rating] = []
     for check in checks:
         value, absolute, key = _evaluate(check, grid)
         if not np.any(np.isfinite(key)):
@@ -850,23 +723,11 @@ def check_limits(design: Design, *, derating: str | None = None,
     rows: list[LimitRow] = []
     for s in searches:
         c = s.check
-        if c.kind is None:
-            design_limit, basis = s.absolute, LIFE_BASIS
-        else:
-            m = margins[c.kind, c.quantity]
-            design_limit, basis = float(m.design_limit(s.absolute)), m.basis
-        if c.unit == "degC":
-            margin, margin_unit = design_limit - s.value, "K"
-        elif c.lower_is_worse:
-            margin, margin_unit = (s.value - design_limit) / design_limit, "fraction"
-        else:
-            margin, margin_unit = (design_limit - s.value) / design_limit, "fraction"
         rows.append(LimitRow(
             part=c.part, quantity=c.quantity, unit=c.unit, worst=s.value,
             where={a: s.point[a] for a in AXES if a != "fsw" or "fsw" in varying},
-            design_limit=design_limit, absolute_limit=s.absolute, margin=float(margin),
-            margin_unit=margin_unit, status=_status(c, s.value, design_limit, s.absolute),
-            basis=basis, note=s.note,
+            absolute_limit=s.absolute, note=s.note,
+            **_judged(c, s.value, s.absolute, margins),
         ))
     nan = float("nan")
     for c in unevaluated:
@@ -880,6 +741,7 @@ def check_limits(design: Design, *, derating: str | None = None,
         rows = [_unsolved(r) for r in rows]
     rows.extend(stage)
     worst = max((r.status for r in rows), key=STATUS_ORDER.index, default="ok")
+
 
     dims = {"vin": "voltage", "vout": "voltage", "load": "current", "ambient": "temperature",
             "fsw": "frequency"}
@@ -1045,4 +907,4 @@ def _variant_limits(variants, *, derating: str | None, corner: Corner) -> Varian
 
 
 __all__ = ["LimitReport", "LimitRow", "Margin", "VariantLimits", "check_limits",
-           "derating_profiles", "electrolytic_life_10k", "i_sat_at"]
+           "derating_profiles", "electrolytic_life_10k", "i_sat_at", "point_ratings"]

@@ -12,7 +12,7 @@ The result is a :class:`~lossbudget.budget.Budget`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
 
 import numpy as np
 
@@ -20,14 +20,17 @@ from lossbudget.budget import AXES, Budget, MechanismStatus
 from lossbudget.design import Corner, Design, Diode, Mosfet
 from lossbudget.errors import DesignError
 from lossbudget.factorial import Variants, stacked_design, take
+from lossbudget.losses import capacitors as capm
 from lossbudget.losses import diode as dio
 from lossbudget.losses import edges as edg
+from lossbudget.losses import inductance as ind_m
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
+from lossbudget.losses import overshoot as osh
 from lossbudget.losses import ring as rng
+from lossbudget.ratings import over_rating, part_ratings
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
-from lossbudget.waveforms import integral_extremes_pwl
 
 N_HARMONICS = 24
 CHUNK = 25_000
@@ -44,7 +47,6 @@ BALANCE_FLAG = 1e-3
 is flagged not_converged with both figures."""
 THERMAL_TOL = 0.01
 CEILING = 300.0
-ESR_FLOOR = 1e-6
 EDGE_MECHANISMS = ("turn_on", "turn_off", "coss", "dead_time", "reverse_recovery")
 
 
@@ -99,14 +101,20 @@ def _text(x) -> str:
     return f"{float(np.min(x)):g}..{float(np.max(x)):g} (by variant)"
 
 
+def _pick(v, corner: Corner) -> float:
+    """A value at a corner, NaN where the design does not give it (not modelled)."""
+    return np.nan if v is None else v.pick(corner)
+
+
 def _fet(m: Mosfet, corner: Corner) -> _Fet:
-    qgs2 = (
-        m.qgs2.pick(corner)
-        if m.qgs2 is not None
-        else _num(
+    if m.qgs2 is not None:
+        qgs2 = m.qgs2.pick(corner)
+    elif m.has_gate_timing:
+        qgs2 = _num(
             mos.gate_plateau_charge_qgs2(m.qgs.pick(corner), v_th=m.v_th, v_plateau=m.v_plateau)
         )
-    )
+    else:
+        qgs2 = np.nan
     a = ae = None
     if m.qoss is not None:
         a = _num(mos.charge_coefficient_from_q(m.qoss.value.pick(corner), v_ref=m.qoss.at))
@@ -122,10 +130,10 @@ def _fet(m: Mosfet, corner: Corner) -> _Fet:
         count=m.count,
         t_points=m.rds_on.t,
         r_points=m.rds_on.pick(corner),
-        v_plateau=m.v_plateau,
-        qg=m.qg.pick(corner),
+        v_plateau=np.nan if m.v_plateau is None else m.v_plateau,
+        qg=_pick(m.qg, corner),
         qgs2=qgs2,
-        qgd=m.qgd.pick(corner),
+        qgd=_pick(m.qgd, corner),
         rg=m.rg,
         a=a,
         ae=ae,
@@ -168,6 +176,8 @@ class _Context:
     sync: bool
     dcm_allowed: bool
     l: float
+    l_at_i: tuple[float, ...]
+    l_points: tuple[float, ...]
     dcr: float
     r_pos: dict[str, float]
     caps: tuple
@@ -178,6 +188,10 @@ class _Context:
     nodes: tuple[str, ...]
     parts: tuple[str, ...]
     network: object
+    gate_drive: bool
+    quiescent: bool
+    overshoot: bool
+    edges_not_modelled: dict[tuple[str, str], str]
     notes: list[str] = field(default_factory=list)
 
 
@@ -205,6 +219,38 @@ def _context(design: Design, corner: Corner) -> _Context:
                 f"copper_ac: Dowell's Δ1 back-solved from rac_rdc = {_text(w.rac_rdc)} at the "
                 "nominal fsw and 25 degC" + ("" if w.layers else ", layers = 1 assumed")
             )
+    if ind.l_at_i:
+        notes.append(
+            "inductor.l: inductance over the current, taken at the mean inductor current per "
+            "part (the DC bias the ripple rides on), linear between the points and held "
+            "outside them; the peak flux integrates the curve up to the peak current"
+        )
+    # optional gate and driver data (SPEC §5): an edge without them is not modelled
+    drv = design.driver
+    fets = [design.switch] + ([design.rectifier] if sync else [])
+    gate_drive = drv.given and all(f.qg is not None for f in fets)
+    timing_key = "{p}.v_plateau, qgd, qgs (with v_th) or qgs2, and driver.v_drive, r_source, r_sink"
+    edges_not_modelled = {}
+    sw_d = design.switch
+    sw_timing = drv.given and sw_d.has_gate_timing
+    if sw_d.eon is None and not sw_timing:
+        edges_not_modelled["switch", "turn_on"] = timing_key.format(p="switch") + " (or switch.eon)"
+    if sw_d.eoff is None and not sw_timing:
+        edges_not_modelled["switch", "turn_off"] = (
+            timing_key.format(p="switch") + " (or switch.eoff)"
+        )
+    overshoot = sw_d.loop_inductance is not None and sw_timing
+    if sw_d.loop_inductance is not None:
+        notes.append(
+            "switch v_pk allowance: the turn-off overshoot L_loop·I_pk/t_fi (switch."
+            "loop_inductance, t_fi from the gate-charge timing) replaces limits.v_spike"
+            if overshoot
+            else "switch.loop_inductance: the turn-off overshoot cannot be derived without the "
+            "gate-charge timing (switch.v_plateau, qgd, qgs or qgs2 and the driver); "
+            "limits.v_spike is used instead"
+        )
+    if sync and not (drv.given and design.rectifier.has_gate_timing):
+        edges_not_modelled["rectifier", "turn_off"] = timing_key.format(p="rectifier")
     if ind.core is not None and ind.core.ct is None:
         notes.append(
             "core: no inductor.core.ct given, so the core loss has no temperature dependence "
@@ -221,6 +267,8 @@ def _context(design: Design, corner: Corner) -> _Context:
         sync=sync,
         dcm_allowed=(not sync) or design.light_load == "diode-emulation",
         l=ind.l.pick(corner),
+        l_at_i=ind.l_at_i,
+        l_points=tuple(v.pick(corner) for v in ind.l_points),
         dcr=ind.dcr.pick(corner),
         r_pos=r_pos,
         caps=caps,
@@ -231,6 +279,11 @@ def _context(design: Design, corner: Corner) -> _Context:
         nodes=network.nodes,
         parts=parts,
         network=network,
+        gate_drive=gate_drive,
+        quiescent=bool(np.isfinite(drv.quiescent))
+        and (drv.supply != "aux" or drv.v_aux is not None or np.isfinite(drv.v_drive)),
+        edges_not_modelled=edges_not_modelled,
+        overshoot=overshoot,
         notes=notes,
     )
 
@@ -244,25 +297,9 @@ def _at_points(ctx: _Context, g: _Grid) -> _Context:
     if g.variant is None:
         return ctx
     idx = g.variant
-    return _Context(
-        design=take(ctx.design, idx),
-        corner=ctx.corner,
-        sw=take(ctx.sw, idx),
-        rect=take(ctx.rect, idx),
-        sync=ctx.sync,
-        dcm_allowed=ctx.dcm_allowed,
-        l=take(ctx.l, idx),
-        dcr=take(ctx.dcr, idx),
-        r_pos={k: take(v, idx) for k, v in ctx.r_pos.items()},
-        caps=take(ctx.design.capacitors, idx),
-        cap_c=take(ctx.cap_c, idx),
-        cap_esr=take(ctx.cap_esr, idx),
-        delta1_ref=take(ctx.delta1_ref, idx),
-        layers=ctx.layers,
-        nodes=ctx.nodes,
-        parts=ctx.parts,
-        network=ctx.network,
-        notes=ctx.notes,
+    return replace(
+        ctx,
+        **{f.name: take(getattr(ctx, f.name), idx) for f in fields(ctx) if f.name != "network"},
     )
 
 
@@ -436,6 +473,7 @@ def _ring_q(ctx: _Context, st, *, dcr, t_l, r_loop):
     if np.all(np.asarray(a_s + a_o) <= 0.0):
         return None
     ind = ctx.design.inductor
+    # the ring runs at (almost) zero inductor current: the inductance at its lowest-current point
     l_stage = ctx.l / ind.count
     v_b, v_set = st.v_switch_block, st.v_switch_settled
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -649,7 +687,8 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, ring_q, reasons=True):
 def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps, full=True):
     """ESR losses of the banks at one position sharing a ripple current by impedance.
 
-    With ``full=False`` only the losses: no RMS currents, no voltage ripple.
+    The models are in :mod:`lossbudget.losses.capacitors`. With ``full=False`` only the
+    losses: no RMS currents, no voltage ripple.
     """
     idx = [k for k, c in enumerate(ctx.caps) if c.position == position]
     if not idx:
@@ -662,46 +701,44 @@ def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps, full=Tru
         t_pts, r_pts = ctx.cap_esr[k]
         esr.append(
             np.maximum(
-                dio.linear_in_temperature(temps[c.name], t_points=t_pts, values=r_pts), ESR_FLOOR
+                dio.linear_in_temperature(temps[c.name], t_points=t_pts, values=r_pts),
+                capm.ESR_FLOOR,
             )
             / c.count
         )
         c_val = ctx.cap_c[k]
         if c.c_bias:
-            ratio = c_val / c.c.typ
-            c_at = np.interp(v_dc, [p[0] for p in c.c_bias], [p[1] for p in c.c_bias]) * ratio
+            c_at = capm.capacitance_at_bias(
+                v_dc,
+                c_points_v=[p[0] for p in c.c_bias],
+                c_points=[p[1] for p in c.c_bias],
+                scale=c_val / c.c.typ,
+            )
         else:
             c_at = np.full(np.shape(v_dc), c_val)
         cap.append(c_at * c.count)
+    shape = np.shape(ms_ac)
+    esr_b = np.stack([np.broadcast_to(e, shape) for e in esr], axis=-1)
+    cap_b = np.stack([np.broadcast_to(x, shape) for x in cap], axis=-1)
+    harm = wave.harmonics_rms(N_HARMONICS) if len(idx) > 1 else np.zeros((*shape, 0))
+    ms = capm.bank_mean_squares(harm, ms_ac, esr=esr_b, capacitance=cap_b, fsw=fsw)
     losses = {}
     rms = {}
-    if len(idx) == 1:
-        k = idx[0]
-        losses[ctx.caps[k].name, "esr"] = esr[0] * ms_ac
-        rms[ctx.caps[k].name] = np.sqrt(ms_ac)
-    else:
-        harm = wave.harmonics_rms(N_HARMONICS)
-        n = np.arange(1, N_HARMONICS + 1)
-        w = 2 * np.pi * n * np.asarray(fsw)[..., None]
-        y = [
-            1.0 / (e[..., None] + 1.0 / (1j * w * c[..., None]))
-            for e, c in zip(esr, cap, strict=True)
-        ]
-        y_sum = sum(y)
-        tail = np.maximum(ms_ac - np.sum(harm * harm, axis=-1), 0.0)
-        for j, k in enumerate(idx):
-            share = np.abs(y[j] / y_sum) ** 2
-            ms_k = np.sum(harm * harm * share, axis=-1) + tail * share[..., -1]
-            losses[ctx.caps[k].name, "esr"] = esr[j] * ms_k
-            rms[ctx.caps[k].name] = np.sqrt(ms_k)
+    for j, k in enumerate(idx):
+        losses[ctx.caps[k].name, "esr"] = capm.esr_loss(esr_b[..., j], ms[..., j])
+        rms[ctx.caps[k].name] = np.sqrt(ms[..., j])
     if not full:
         return losses, {}, None
-    c_total = sum(cap)
-    esr_par = 1.0 / sum(1.0 / e for e in esr)
-    ripple = integral_extremes_pwl(
-        wave.t, wave.start - wave.mean()[..., None], wave.end - wave.mean()[..., None]
-    ) / (fsw * c_total)
-    ripple = ripple + (wave.peak() - wave.trough()) * esr_par
+    mean = wave.mean()[..., None]
+    ripple = capm.ripple_voltage_banks(
+        wave.t,
+        wave.start - mean,
+        wave.end - mean,
+        fsw=fsw,
+        esr=esr_b,
+        capacitance=cap_b,
+        n_harmonics=N_HARMONICS,
+    )
     return losses, rms, ripple
 
 
@@ -756,7 +793,9 @@ def _evaluate(
     r_rect = r_rc + rp["rectifier"] + (0.0 if buck else rp["output"])
     r_l = dcr + rp["inductor"] + (rp["output"] if buck else 0.0)
     vc = g.vout + rp["load"] * g.load
-    qg_total = sw.qg * sw.count + (rc.qg * rc.count if ctx.sync else 0.0)
+    qg_total = 0.0
+    if ctx.gate_drive:
+        qg_total = sw.qg * sw.count + (rc.qg * rc.count if ctx.sync else 0.0)
     i_gate = qg_total * g.fsw
     i_q = d.driver.quiescent if np.isfinite(d.driver.quiescent) else 0.0
     i_sup = i_gate + i_q
@@ -769,7 +808,14 @@ def _evaluate(
     op = d.operating
     vin_eff = g.vin
     p_extra = np.zeros(shape)
-    l_stage = ctx.l / ind.count
+    # the inductance per part: a constant, or the curve over the current taken at the mean
+    # inductor current of the previous pass (the first pass from the lossless estimate)
+    l_part = np.full(shape, ctx.l)
+    if ctx.l_at_i:
+        i_dc = {"boost": vc * i_out / g.vin, "buck": i_out,
+                "buck-boost": i_out * (g.vin + vc) / g.vin}[d.topology]
+        l_part = ind_m.inductance_at_current(i_dc / ind.count, points_i=ctx.l_at_i,
+                                             points_l=ctx.l_points)
 
     def tally(st, edge, zero, dead, slow, vin_eff):
         """The losses of one pass and the node powers they heat."""
@@ -806,10 +852,11 @@ def _evaluate(
                 res.r.pick(ctx.corner) / res.count * ms_at[res.position]()
             )
         v_supply = _supply_voltage(ctx, vin_eff, vc)
-        losses["driver", "gate_drive"] = mos.gate_drive_power(
-            qg_total, v_supply=v_supply, fsw=g.fsw
-        )
-        if np.isfinite(d.driver.quiescent):
+        if ctx.gate_drive:
+            losses["driver", "gate_drive"] = mos.gate_drive_power(
+                qg_total, v_supply=v_supply, fsw=g.fsw
+            )
+        if ctx.quiescent:
             losses["controller", "quiescent"] = i_q * v_supply
         # node powers: each part's losses, plus the gate energy burnt in its internal resistance
         share_sw = mos.gate_resistance_share(
@@ -823,10 +870,11 @@ def _evaluate(
         for (comp, _), val in losses.items():
             if comp in ctx.nodes:
                 node_power[..., ctx.nodes.index(comp)] += val
-        node_power[..., ctx.nodes.index("switch")] += (
-            sw.qg * sw.count * g.fsw * d.driver.v_drive * share_sw
-        )
-        if ctx.sync:
+        if ctx.gate_drive:
+            node_power[..., ctx.nodes.index("switch")] += (
+                sw.qg * sw.count * g.fsw * d.driver.v_drive * share_sw
+            )
+        if ctx.sync and ctx.gate_drive:
             share_rc = mos.gate_resistance_share(
                 rg=rc.rg,
                 r_source=d.driver.r_source,
@@ -847,12 +895,13 @@ def _evaluate(
         step += 1
         # what only the reported point needs (reasons, ripple, stresses): the last full pass
         report = full and step == last
+        l_used = l_part
         st = stage_fn(
             vin=vin_eff,
             vc=vc,
             i_out=i_out,
             fsw=g.fsw,
-            l=l_stage,
+            l=l_used / ind.count,
             r_sw=r_sw,
             r_l=r_l,
             r_rect=r_rect,
@@ -865,12 +914,22 @@ def _evaluate(
         )
         if probe and step == steps - 1:
             return st, thermal
+        if ctx.l_at_i:
+            i_mean = st.i_l.mean() / ind.count
+            l_part = np.where(
+                np.isfinite(i_mean),
+                ind_m.inductance_at_current(np.where(np.isfinite(i_mean), i_mean, 0.0),
+                                            points_i=ctx.l_at_i, points_l=ctx.l_points),
+                l_used,
+            )
         v = v_edge_of(vin_eff)
         ring = _ring_q(ctx, st, dcr=dcr, t_l=t_l, r_loop=r_l - dcr)
         edge, zero, dead = _edge(
             ctx, st, v=v, fsw=g.fsw, t_sw=t_sw, t_r=t_r, ring_q=None if ring is None else ring[0],
             reasons=report,
         )
+        for key in ctx.edges_not_modelled:  # no gate data: the edge is not modelled
+            edge.pop(key, None)
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
         # an infeasible point keeps its first, finite inputs so that its reason stays the
         # stage's own (NaN would turn every check false). Behind an input resistor R the
@@ -893,7 +952,8 @@ def _evaluate(
         # final evaluation, so its stresses and rows belong to the reported operating point
         if step == 0 or slow is None or report:
             slow = _slow_losses(
-                ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report
+                ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report,
+                l_part=l_used,
             )
         if step == 0:
             slow_first = slow
@@ -930,7 +990,7 @@ def _evaluate(
         return node_power
     aux = d.driver.supply == "aux"
     source_power = g.vin * i_in_total + (
-        losses["driver", "gate_drive"] + losses.get(("controller", "quiescent"), 0.0)
+        losses.get(("driver", "gate_drive"), 0.0) + losses.get(("controller", "quiescent"), 0.0)
         if aux
         else 0.0
     )
@@ -956,7 +1016,7 @@ def _evaluate(
     )
 
 
-def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
+def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full, l_part):
     """Core, AC copper, ESR and leakage: the losses that need harmonics or blocking intervals."""
     d = ctx.design
     ind = d.inductor
@@ -972,8 +1032,15 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
     ipk_part = st.i_pk / ind.count
     delta_b = b_pk = None
     if core is not None:
-        delta_b = mag.flux_density_swing(ctx.l, di_part, turns=core.turns, ae=core.ae)
-        b_pk = mag.peak_flux_density(ctx.l, ipk_part, turns=core.turns, ae=core.ae)
+        # Faraday: the swing with the inductance the stage used; the peak from the flux
+        # linkage up to the peak current where the inductance falls with current
+        delta_b = mag.flux_density_swing(l_part, di_part, turns=core.turns, ae=core.ae)
+        if ctx.l_at_i:
+            b_pk = ind_m.flux_linkage_at_current(
+                ipk_part, points_i=ctx.l_at_i, points_l=ctx.l_points
+            ) / (core.turns * core.ae)
+        else:
+            b_pk = mag.peak_flux_density(ctx.l, ipk_part, turns=core.turns, ae=core.ae)
         pv_ccm = mag.core_loss_density_igse_ccm(
             delta_b, duty=st.duty, fsw=g.fsw, k=core.k, alpha=core.alpha, beta=core.beta
         )
@@ -1063,10 +1130,11 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
         t_pts, r_pts = ctx.cap_esr[k]
         if np.shape(t_pts)[-1] > 1:
             r_at = dio.linear_in_temperature(temps[c.name], t_points=t_pts, values=r_pts)
-            low = r_at <= ESR_FLOOR
+            low = r_at <= capm.ESR_FLOOR
             clipped = clipped | low
             notes.append(
-                (c.name, (low, f"{c.name} ESR clipped at {ESR_FLOOR:g} ohm outside its points"))
+                (c.name, (low, f"{c.name} ESR clipped at {capm.ESR_FLOOR:g} ohm outside its "
+                          "points"))
             )
     return {
         "losses": out,
@@ -1078,6 +1146,7 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full):
         "cap_rms": {**rms_in, **rms_out},
         "delta_b": delta_b,
         "b_pk": b_pk,
+        "l_part": l_part,
     }
 
 
@@ -1093,10 +1162,18 @@ def _stresses(ctx: _Context, st, *, vc, vin_eff, slow):
         s[comp, "i_rms"] = wave.rms() / count
         s[comp, "i_pk"] = wave.peak() / count
         s[comp, "v_pk"] = v_blk
+    if ctx.overshoot:
+        # the loop current falls in t_fi at the main switch's turn-off (SPEC §2.10)
+        t_fi = _gate_timing(ctx.sw, d.driver)[3]
+        s["switch", "v_overshoot"] = osh.turn_off_overshoot(
+            d.switch.loop_inductance, st.i_pk, t_fi
+        )
     ind = d.inductor
     s["inductor", "i_avg"] = st.i_l.mean() / ind.count
     s["inductor", "i_rms"] = st.i_l.rms() / ind.count
     s["inductor", "i_pk"] = st.i_pk / ind.count
+    if ctx.l_at_i:
+        s["inductor", "l"] = slow["l_part"]
     if slow["b_pk"] is not None:
         s["inductor", "b_pk"] = slow["b_pk"]
         s["inductor", "delta_b"] = slow["delta_b"]
@@ -1120,6 +1197,9 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     st["switch", "conduction"] = ("computed", "")
     st["switch", "turn_on"] = ("computed", "")
     st["switch", "turn_off"] = ("computed", "")
+    for key in (("switch", "turn_on"), ("switch", "turn_off")):
+        if key in ctx.edges_not_modelled:
+            st[key] = ("not_modelled", ctx.edges_not_modelled[key])
     st["switch", "coss"] = ("computed", "") if (sw.qoss or sw.eoss) else ("not_modelled", coss_key)
     if ctx.sync and d.light_load == "diode-emulation":
         # the switch's body diode conducts in the dead times only while the inductor current
@@ -1155,7 +1235,11 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     if ctx.sync:
         st["rectifier", "conduction"] = ("computed", "")
         st["rectifier", "turn_on"] = ("computed", "")
-        st["rectifier", "turn_off"] = ("computed", "")
+        st["rectifier", "turn_off"] = (
+            ("not_modelled", ctx.edges_not_modelled["rectifier", "turn_off"])
+            if ("rectifier", "turn_off") in ctx.edges_not_modelled
+            else ("computed", "")
+        )
         has = (sw.qoss or sw.eoss) and (rc.qoss or rc.eoss) and d.driver.dead_time is not None
         st["rectifier", "coss"] = (
             ("computed", "")
@@ -1196,13 +1280,31 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
         st[c.name, "esr"] = ("computed", "")
     for r in d.resistors:
         st[r.name, "conduction"] = ("computed", "")
-    st["driver", "gate_drive"] = ("computed", "")
+    st["driver", "gate_drive"] = (
+        ("computed", "")
+        if ctx.gate_drive
+        else (
+            "not_modelled",
+            "driver.v_drive, r_source, r_sink and switch.qg"
+            + (" and rectifier.qg" if ctx.sync else ""),
+        )
+    )
     st["controller", "quiescent"] = (
         ("computed", "")
-        if np.isfinite(d.driver.quiescent)
-        else ("not_modelled", "driver.quiescent")
+        if ctx.quiescent
+        else (
+            "not_modelled",
+            "driver.quiescent" if not np.isfinite(d.driver.quiescent) else "driver.v_aux",
+        )
     )
     return st
+
+
+def not_modelled(design: Design) -> list[tuple[str, str, str]]:
+    """(component, mechanism, the key that would enable it) for every mechanism left out."""
+    ctx = _context(design, "typ")
+    return [(c, m, note) for (c, m), (kind, note) in _statuses(ctx).items()
+            if kind == "not_modelled"]
 
 
 # --------------------------------------------------------------------------------------------
@@ -1675,6 +1777,7 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
         "inductor": d.inductor.t_max,
         **{c.name: c.t_max for c in d.capacitors},
     }
+    limits = {k: np.nan if v is None else v for k, v in limits.items()}  # NaN: not given
     stresses = {
         k: cat(lambda p, k=k: np.broadcast_to(p.ev.stresses[k], p.pout.shape)) * nan
         for k in pieces[0].ev.stresses
@@ -1699,7 +1802,7 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
     provenance["ring_q"] = _ring_provenance(ctx, pieces, bad.ravel())
     if provenance["ring_q"]["dcm_points"]:
         provenance["notes"].append(_ring_note(ctx, provenance["ring_q"]))
-    return Budget(
+    budget = Budget(
         design_name=d.name,
         topology=d.topology,
         coords=dict(coords.items()),
@@ -1722,6 +1825,10 @@ def _assemble_budget(ctx: _Context, coords, shape, pieces, statuses_raw, bad_vou
             node: cat(lambda p, j=j: p.diverging[:, j]) for j, node in enumerate(ctx.nodes)
         },
     )
+    # ratings at every solved point (SPEC §2.10), by the measures the envelope check uses
+    over, why = over_rating(budget, part_ratings(d, corner)[0])
+    flags["over_rating"] = over
+    return replace(budget, over_rating_reason=why)
 
 
 def _ring_provenance(ctx: _Context, pieces, bad) -> dict:
@@ -1839,6 +1946,9 @@ def _provenance(ctx: _Context, corner: Corner) -> dict:
         "that turn-off and coss count the node energy once (derived)",
         "capacitors: ESR constant over the harmonics; banks at one position share each harmonic "
         "by impedance",
+        "output ripple: the exact peak-to-peak of ESR·i + ∫i dt/C over the piecewise-linear "
+        "bank current (closed-form extremes); several banks: the equivalent bank (ΣC, ESRs in "
+        "parallel) exactly plus the network's remainder from the harmonics",
         f"thermal: coupled fixed point from the ambient, error within {THERMAL_TOL} K; runaway "
         f"when the loop gain reaches 1 or a node passes {CEILING:g} degC",
     ]

@@ -454,6 +454,7 @@ _MOSFET_KEYS = {
     "body_diode.qrr.at": "temperature",
     "body_diode.erec": "energy",
     "tj_max": "temperature",
+    "loop_inductance": "inductance",
     "count": "number",
 }
 
@@ -501,6 +502,7 @@ GLOSSARY: dict[str, str] = {
     "driver.quiescent": "current",
     "driver.dead_time": "time",
     "inductor.l": "inductance",
+    "inductor.l[].at_i": "current",
     "inductor.dcr.r": "resistance",
     "inductor.dcr.at": "temperature",
     "inductor.i_sat[].i": "current",

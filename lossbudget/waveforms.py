@@ -244,6 +244,55 @@ def harmonic_rms_pwl(t, start, end, *, n_max):
     return out.T.reshape(*lead, n_max)
 
 
+def fourier_coefficients_pwl(t, start, end, *, n_max):
+    """Complex Fourier coefficients c_1..c_N of a periodic PWL waveform.
+
+    Parameters
+    ----------
+    t : array_like
+        Segment boundaries as fractions of the period, last axis (K + 1 values, 0 to 1). [-]
+    start, end : array_like
+        Value at the start and the end of each segment, last axis. [A]
+    n_max : int
+        Highest harmonic. [-]
+
+    Returns
+    -------
+    ndarray
+        c_n = <x·e^(−j2πnτ)> at index n − 1 along a new last axis (complex). [A]
+
+    Notes
+    -----
+    Integrating twice by parts, with slopes s_k (per period), jumps J_k at the boundaries t_k
+    and ω = 2πn: c_n = Σ_k e^(−jωt_k)·[J_k + (s_k − s_(k−1))/(jω)]/(jω). A zero-length segment
+    counts as a jump.
+
+    References
+    ----------
+    .. [1] R. W. Erickson, D. Maksimović, Fundamentals of Power Electronics, 2nd ed., Kluwer,
+       2001, section on PWM waveform harmonics (Fourier series of piecewise-linear waveforms).
+    """
+    t = np.asarray(t, dtype=float)
+    a = np.asarray(start, dtype=float)
+    b = np.asarray(end, dtype=float)
+    d = t[..., 1:] - t[..., :-1]
+    long = d > 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.where(long, (b - a) / d, 0.0)
+    jump = a - np.roll(b, 1, axis=-1) + np.where(long, 0.0, b - a)
+    ds = slope - np.roll(slope, 1, axis=-1)
+    # harmonic by harmonic, e^(−j2πn t_k) by repeated multiplication
+    base = np.exp(-2j * np.pi * t[..., :-1])  # (..., K)
+    power = base.copy()
+    out = np.empty((*base.shape[:-1], n_max), dtype=complex)
+    for n in range(1, n_max + 1):
+        if n > 1:
+            power *= base
+        w = 2j * np.pi * n
+        out[..., n - 1] = np.sum(power * (jump + ds / w), axis=-1) / w
+    return out
+
+
 def derivative_mean_square_pwl(durations, start, end):
     """Mean square of the derivative of a continuous piecewise-linear waveform.
 

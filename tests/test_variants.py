@@ -243,7 +243,7 @@ def test_bad_parts_toml_file_names_the_file(tmp_path):
         vm.variants(GROW, parts=path)
     problems = info.value.problems
     assert "cart_parts.toml: switch[0].vds_rated: expected voltage (V), got \"100 uH\"" in problems
-    assert "cart_parts.toml: switch[0].qg: missing required key" in problems
+    assert "cart_parts.toml: switch[0].thermal: missing required key" in problems
     path.write_text("[[switch]\n")
     with pytest.raises(lb.DesignError, match=r"^cart_parts\.toml: not valid TOML"):
         vm.variants(GROW, parts=path)

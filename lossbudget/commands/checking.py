@@ -60,6 +60,12 @@ def limit_table(report) -> list[str]:
             _value(r.design_limit, r.unit), _value(r.absolute_limit, r.unit),
             _margin(r.margin, r.margin_unit), r.status, f"[{bases.index(r.basis) + 1}]",
         ])
+    for part, quantity, key in report.not_checked:  # a limit without its rating
+        basis = f"not checked: {key} would enable it"
+        if basis not in bases:
+            bases.append(basis)
+        rows.append([part, quantity, "-", "-", "-", "-", "-", "not checked",
+                     f"[{bases.index(basis) + 1}]"])
     header = ["part", "quantity", "worst", f"where ({', '.join(varying)})", "design limit",
               "absolute limit", "margin", "status", "basis"]
     lines = [aligned_table(header, rows, right=[False, False, True, False, True, True, True,
@@ -92,12 +98,11 @@ def check_report(report) -> str:
         lines.append("  notes:")
         for p, q, n in notes:
             lines.extend(_wrap(f"{p} {q}: {n}", "    "))
-    if report.not_checked:
-        lines.append("  not checked (the key that would enable each):")
-        lines.extend(f"    {p} {q}: {key}" for p, q, key in report.not_checked)
     lines.extend(_wrap(f"grid: {report.grid}", "  "))
     lines.append("")
-    lines.append(f"  worst status: {report.worst_status}")
+    lines.append(f"  worst status: {report.worst_status}" + (
+        f" ({len(report.not_checked)} limits not checked: no rating given)"
+        if report.not_checked else ""))
     lines.append("")
     for text in report.cautions:
         lines.extend(_wrap(f"caution: {text}", "  "))

@@ -203,7 +203,9 @@ class ExactRows:
         parts = [p for p in limits if p in hot.temperatures]
         with np.errstate(invalid="ignore"):
             excess = np.array([hot.temperatures[p] - limits[p] for p in parts])  # part, vin, load
-            closest = np.nanmax(excess, axis=(0, 2), initial=-np.inf)
+            # no temperature limit given (a concept-stage design): no margin to rank by
+            closest = (np.nanmax(excess, axis=(0, 2), initial=-np.inf) if parts
+                       else np.full(vins.size, -np.inf))
         # the row with the most unsolved points (runaway) first, then the least margin
         unsolved = np.count_nonzero(hot.flagged, axis=1)
         row = int(np.lexsort((closest, unsolved))[-1])
@@ -562,7 +564,7 @@ def demo_command(out: Path) -> None:
         d = load_design(path)
     op = d.operating
     click.echo("== nominal point (vin nominal, rated load, nominal ambient) ==")
-    click.echo(point_report(solve(d, vin=op.vin.nom, load_fraction=1.0)))
+    click.echo(point_report(solve(d, vin=op.vin.nom, load_fraction=1.0), d))
     click.echo("")
     click.echo("== efficiency map ==")
     with output_set(out, create=True) as staged:

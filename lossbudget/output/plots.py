@@ -37,6 +37,8 @@ OTHER_COLOUR = "#BBBBBB"
 MARKERS = ("o", "s", "^", "D", "v", "P", "X")
 FLAGGED_FACE = "#D9D9D9"
 FLAGGED_HATCH = "///"
+OVER_RATING_HATCH = "xx"
+OVER_RATING_EDGE = "#D55E00"  # Okabe–Ito vermillion
 
 
 # --------------------------------------------------------------------------------------------
@@ -193,6 +195,18 @@ def _row(vin_axis: np.ndarray, vin: float | None) -> int:
     if vin is None:
         return vin_axis.size // 2
     return int(np.argmin(np.abs(vin_axis - float(vin))))
+
+
+def _over_rating_text(budget: Budget, mask: np.ndarray) -> str:
+    """Legend text for points past a rating: the parts and quantities, in short."""
+    named: list[str] = []
+    for text in np.unique(np.asarray(budget.rating_reasons)[mask].astype(str)):
+        for item in text.split("; "):
+            name = item.split(":")[0]
+            if name and name not in named:
+                named.append(name)
+    shown = ", ".join(named[:4]) + (f" (+{len(named) - 4} more)" if len(named) > 4 else "")
+    return f"over a part's rating: {shown}"
 
 
 def _flag_text(budget: Budget, mask: np.ndarray) -> str:
@@ -360,6 +374,15 @@ def efficiency_map(budget: Budget, path, *, rated_load: float | None = None) -> 
                              label=_flag_text(budget, flagged)))
     elif not finite.size:
         ax.text(0.5, 0.5, "no feasible point", transform=ax.transAxes, ha="center")
+    over = budget.flags.get("over_rating")
+    if over is not None and over.any():
+        # solved points where a part passes an absolute rating (SPEC §2.10)
+        shade = ax.contourf(load, vin, over.astype(float), levels=[0.5, 1.5], colors="none",
+                            hatches=[OVER_RATING_HATCH])
+        shade.set_edgecolor(OVER_RATING_EDGE)
+        shade.set_linewidth(0.0)
+        handles.append(Patch(facecolor="none", edgecolor=OVER_RATING_EDGE,
+                             hatch=OVER_RATING_HATCH, label=_over_rating_text(budget, over)))
     _load_axis(ax, load)
     ax.set_ylim(vin[0], vin[-1])
     ax.set_ylabel("input voltage (V)")
@@ -567,7 +590,8 @@ def _temperature_panel(ax, budget: Budget, r: int, load: np.ndarray, parts: list
     # limit lines: parts sharing a limit alternate their dashes so every colour shows
     limits: dict[float, list[str]] = {}
     for p in parts:
-        limits.setdefault(float(derated.get(p, budget.temperature_limits[p])), []).append(p)
+        if np.isfinite(budget.temperature_limits[p]):  # a part without its limit: no line
+            limits.setdefault(float(derated.get(p, budget.temperature_limits[p])), []).append(p)
     for value, group in limits.items():
         k = len(group)
         for i, p in enumerate(group):
