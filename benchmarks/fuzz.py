@@ -15,7 +15,8 @@ Three kinds of case, all from one seed:
   are not negative, its energy balance Vin·I_in = Pout + every loss closes within 1e-3, and a
   flagged point names its reason);
 - cli: click's CliRunner on ``validate``, ``point``, ``map`` and ``export`` with random option
-  values: exit 0, 1 or 2, never 3, and on exit 2 each stderr line is one problem.
+  values: exit 0, 1, 2 or 4 (nothing solved, with its reason), never 3, and on exit 2 each
+  stderr line is one problem.
 
 Each case ends as one of: ``design_error`` (a DesignError whose problems are one line each),
 ``solved`` (clean), ``flagged`` (solved with a flagged point, each with its reason), ``crash``
@@ -314,9 +315,14 @@ def cli_case(rng: random.Random, design: str, tmp: Path, n: int) -> tuple[str, s
         if not lines:
             return "crash", f"exit 2 without a message: {' '.join(args)[:120]}"
         return "design_error", ""
+    text = result.stdout
+    if result.exit_code == 4:  # nothing could be solved: honest only with the reason shown
+        if "not solved" not in text and "flagged" not in text:
+            return "silent_wrong", f"exit 4 without a reason: {' '.join(args)[:120]}"
+        return "flagged", ""
     if result.exit_code not in (0, 1):
         return "crash", f"exit {result.exit_code}: {' '.join(args)[:120]}"
-    text = result.stdout
+
     if " inf " in text or " nan " in text.lower():
         return "silent_wrong", f"a non-finite number printed: {' '.join(args)[:120]}"
     return ("flagged" if "not solved" in text or "flagged" in text else "solved"), ""

@@ -1085,7 +1085,14 @@ def _diode(rd: _Reader, raw: Any, path: str, *, iout: float | None = None) -> Di
             if dbl is None and "doubles_every" not in ltab:
                 dbl = 10.0
                 rd.default(_join(lpath, "doubles_every"), "10 K (common practice)")
-            if None not in (i, at, at_v, dbl):
+            if dbl is not None and dbl < 1.0:
+                # a silicon diode's leakage doubles every 5 to 15 K (common practice); below
+                # 1 K the exponential law overflows long before any junction limit
+                rd.problem(
+                    _join(lpath, "doubles_every"),
+                    f"expected a doubling interval of at least 1 K, got {dbl:g} K",
+                )
+            elif None not in (i, at, at_v, dbl):
                 leak = Leakage(i=i, at=at, at_v=at_v, doubles_every=dbl)
     tj = rd.optional(tab, "tj_max", path, dim_key="rectifier.tj_max")
     thermal = (

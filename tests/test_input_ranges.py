@@ -53,6 +53,16 @@ def test_rds_on_point_at_absolute_zero_is_refused():
     assert "from -250 degC to 1000 degC" in text and '"0 K"' in text
 
 
+def test_leakage_doubling_below_one_kelvin_is_refused_not_overflowed():
+    # found by the fuzz campaign: 2**((T - T_ref)/0.01 K) overflows a double (IEEE 754
+    # binary64) within 11 K; a silicon diode's leakage doubles every 5 to 15 K (common practice)
+    def mutate(raw):
+        raw["rectifier"]["leakage"]["doubles_every"] = "0.01 K"
+
+    text = one_problem(mutate, "rectifier.leakage.doubles_every")
+    assert "at least 1 K" in text and "0.01 K" in text
+
+
 def test_steinmetz_beta_400_with_converted_units_is_refused_not_overflowed():
     # 1e3 ** 400 overflows a double (IEEE 754 binary64 tops out near 1.8e308)
     def mutate(raw):
