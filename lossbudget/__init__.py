@@ -2,8 +2,9 @@
 
 Public API: :func:`load_design`, :func:`solve`, :func:`sweep`, :func:`check_limits`,
 :func:`write_workbook`, :func:`variants` (design variants: parts files, varied keys),
-:func:`compare` (ranking the variants), :class:`DesignError`. ``import lossbudget`` loads the
-engine with numpy only; scipy, pandas, matplotlib and openpyxl load when a function needs them.
+:func:`compare` (ranking the variants), :func:`calibrate`, :class:`DesignError`.
+``import lossbudget`` loads the engine with numpy only; scipy, pandas, matplotlib, openpyxl and
+tomlkit load when a function needs them.
 """
 
 from __future__ import annotations
@@ -24,6 +25,8 @@ _LAZY = {
     "LimitReport": ("lossbudget.limits", "LimitReport"),
     "write_workbook": ("lossbudget.output.workbook", "write_workbook"),
     "compare": ("lossbudget.ranking", "compare"),
+    "calibrate": ("lossbudget.calibration", "calibrate"),
+    "Calibration": ("lossbudget.calibration", "Calibration"),
 }
 
 

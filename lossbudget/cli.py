@@ -171,5 +171,9 @@ from lossbudget.commands.comparing import compare_command  # noqa: E402
 
 main.add_command(compare_command)
 
+from lossbudget.commands.calibrating import calibrate_command  # noqa: E402
+
+main.add_command(calibrate_command)
+
 for _command in main.commands.values():
     _command.epilog = _command.epilog or EXIT_EPILOG

@@ -419,6 +419,8 @@ class Design:
     resolved: tuple[tuple[str, str], ...] = field(default=(), repr=False)
     warnings: tuple[str, ...] = ()
     defaults: tuple[tuple[str, str], ...] = ()
+    calibration: ScaleFactors | None = None
+    text: str | None = field(default=None, repr=False)
 
     @property
     def inverting(self) -> bool:
@@ -1855,6 +1857,7 @@ _TOP = (
     "resistor",
     "thermal",
     "limits",
+    "calibration",
 )
 
 
@@ -1874,6 +1877,7 @@ def load_design(source: str | Path | dict) -> Design:
         except (TypeError, ValueError):  # keys of mixed types, or a circular structure
             text = repr(source)
         checksum = hashlib.sha256(text.encode()).hexdigest()
+        text = None
     elif isinstance(source, str | os.PathLike):
         path = Path(source)
         name = path.name
@@ -1881,18 +1885,27 @@ def load_design(source: str | Path | dict) -> Design:
             data = path.read_bytes()
         except OSError as exc:
             raise DesignError(f"{path}: cannot read the design file ({exc.strerror})") from None
-        try:
-            raw = tomllib.loads(data.decode("utf-8"))
-        except UnicodeDecodeError:
-            raise DesignError(f"{name}: expected a UTF-8 text file") from None
-        except tomllib.TOMLDecodeError as exc:
-            raise DesignError(f"{name}: not valid TOML: {exc}") from None
+        raw, text = _parse_toml(data, name)
         checksum = hashlib.sha256(data).hexdigest()
     else:
         raise DesignError(
             f"<{type(source).__name__}>: expected a path to a TOML design file or a dict "
             "of the same shape"
         )
+    return _design(raw, name=name, checksum=checksum, text=text)
+
+
+def design_from_text(text: str, *, name: str) -> Design:
+    """Read and validate a design from TOML text, as :func:`load_design` reads a file.
+
+    ``name`` stands for the file name in messages and provenance.
+    """
+    data = text.encode("utf-8")
+    raw, text = _parse_toml(data, name)
+    return _design(raw, name=name, checksum=hashlib.sha256(data).hexdigest(), text=text)
+
+
+def _design(raw: Any, *, name: str, checksum: str, text: str | None) -> Design:
     rd = _Reader(name)
     top = rd.table(
         raw,
@@ -1998,9 +2011,14 @@ def load_design(source: str | Path | dict) -> Design:
                   **{c.name: "electrolytic" if c.life is not None else "capacitor"
                      for c in caps}}
     limits = _limits(rd, top.get("limits", {}), part_kinds)
+    factors = (
+        _calibration(rd, top["calibration"], sinks=sinks, names=names)
+        if "calibration" in top
+        else None
+    )
     if rd.problems:
         raise DesignError(rd.problems)
-    return Design(
+    design = Design(
         name=title,
         topology=topology,
         rectifier_kind=rect,
@@ -2020,7 +2038,20 @@ def load_design(source: str | Path | dict) -> Design:
         resolved=tuple(rd.resolved),
         warnings=tuple(rd.warnings),
         defaults=tuple(rd.defaults),
+        text=text,
     )
+    return design if factors is None else apply_calibration(design, factors)
+
+
+def _parse_toml(data: bytes, name: str) -> tuple[dict, str]:
+    """The TOML document in ``data`` and its text, or a one-line DesignError."""
+    try:
+        text = data.decode("utf-8")
+        return tomllib.loads(text), text
+    except UnicodeDecodeError:
+        raise DesignError(f"{name}: expected a UTF-8 text file") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise DesignError(f"{name}: not valid TOML: {exc}") from None
 
 
 def _check_gate_drive(
@@ -2155,3 +2186,187 @@ def _margins(rd: _Reader, mt: Any, part_kinds: dict[str, str]) -> tuple[UserMarg
 def glossary_keys() -> list[str]:
     """Every quantity key the glossary knows (for documentation)."""
     return sorted(GLOSSARY)
+
+
+# --------------------------------------------------------------------------------------------
+# the [calibration] table: scale factors fitted to bench measurements
+# --------------------------------------------------------------------------------------------
+
+GROUP_FACTORS = ("switching", "coss", "conduction", "copper", "core", "quiescent")
+"""Scale factors on loss groups, each multiplying what the datasheet model gives."""
+BOARD_POSITION = "input"
+"""Where ``board`` without a position adds its resistance: the DC input path."""
+_CALIBRATION_KEYS = (*GROUP_FACTORS, "board", "rth", "source")
+_SOURCE_KEYS = ("bench", "points", "sha256", "free")
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ScaleFactors:
+    """Factors that bring the model to bench measurements (the ``[calibration]`` table).
+
+    ``switching`` multiplies the turn-on and turn-off energies of both MOSFETs, ``coss`` their
+    node-charge energies, ``conduction`` the channel resistances Rds(on) (main switch and
+    synchronous FET; a diode's drop is left alone), ``copper`` the winding's DC resistance
+    (hence the DC and AC copper loss), ``core`` the core loss, ``quiescent`` the controller's
+    bias current. ``board`` adds a series resistance at a current position (ohms, constant
+    with temperature), ``rth`` scales a sink's resistance to ambient. ``bench``, ``points``,
+    ``sha256`` and ``free`` record the fit that produced them.
+    """
+
+    switching: float = 1.0
+    coss: float = 1.0
+    conduction: float = 1.0
+    copper: float = 1.0
+    core: float = 1.0
+    quiescent: float = 1.0
+    board: tuple[tuple[str, float], ...] = ()
+    rth: tuple[tuple[str, float], ...] = ()
+    bench: str | None = None
+    points: int | None = None
+    sha256: str | None = None
+    free: tuple[str, ...] = ()
+
+    def value(self, name: str) -> float:
+        """A factor by its name (``switching``, ``board.input``, ``rth.board``, ...)."""
+        if name in GROUP_FACTORS:
+            return getattr(self, name)
+        kind, _, where = name.partition(".")
+        table = dict(self.board if kind == "board" else self.rth if kind == "rth" else ())
+        return table.get(where, 0.0 if kind == "board" else 1.0)
+
+    def with_values(self, values: dict[str, float], **fields: Any) -> ScaleFactors:
+        """These factors with some replaced by name (and record fields such as ``bench``)."""
+        groups = {k: float(v) for k, v in values.items() if k in GROUP_FACTORS}
+        board = dict(self.board)
+        rth = dict(self.rth)
+        for k, v in values.items():
+            kind, _, where = k.partition(".")
+            if kind == "board":
+                board[where] = float(v)
+            elif kind == "rth":
+                rth[where] = float(v)
+        return ScaleFactors(
+            **{g: groups.get(g, getattr(self, g)) for g in GROUP_FACTORS},
+            board=tuple(sorted(board.items())),
+            rth=tuple(sorted(rth.items())),
+            bench=fields.get("bench", self.bench),
+            points=fields.get("points", self.points),
+            sha256=fields.get("sha256", self.sha256),
+            free=tuple(fields.get("free", self.free)),
+        )
+
+    def describe(self) -> str:
+        """One line for the provenance of every output."""
+        parts = [f"{g} × {getattr(self, g):.4g}" for g in GROUP_FACTORS if getattr(self, g) != 1]
+        parts += [f"board.{p} {format_quantity(r, 'resistance')}" for p, r in self.board]
+        parts += [f"rth.{s} × {k:.4g}" for s, k in self.rth]
+        head = "calibrated"
+        if self.bench is not None:
+            head += f" against {self.bench}"
+            if self.points is not None:
+                head += f", {self.points} points"
+            if self.sha256:
+                head += f", sha256 {self.sha256[:16]}…"
+        return f"{head}: {', '.join(parts) or 'all factors 1'}"
+
+
+def board_resistor_name(position: str) -> str:
+    """The component name of a calibration's added board resistance at a position."""
+    return f"board.{position}"
+
+
+def apply_calibration(design: Design, factors: ScaleFactors) -> Design:
+    """The design with these scale factors (replacing any it held), ready for the solver."""
+    import dataclasses
+
+    old = {board_resistor_name(p) for p, _ in design.calibration.board} if (
+        design.calibration is not None
+    ) else set()
+    resistors = tuple(r for r in design.resistors if r.name not in old) + tuple(
+        Resistor(name=board_resistor_name(p), position=p, r=Value(typ=r, worst=r))
+        for p, r in factors.board
+    )
+    return dataclasses.replace(design, calibration=factors, resistors=resistors)
+
+
+def _calibration(
+    rd: _Reader, raw: Any, *, sinks: tuple[Sink, ...], names: list[str]
+) -> ScaleFactors | None:
+    """The ``[calibration]`` table: positive factors, known names, resistances at positions."""
+    path = "calibration"
+    tab = rd.table(raw, path, allowed=_CALIBRATION_KEYS)
+    if tab is None:
+        return None
+    n_problems = len(rd.problems)
+    groups = {g: rd.number(tab, g, path) for g in GROUP_FACTORS if g in tab}
+    board: list[tuple[str, float]] = []
+    if "board" in tab:
+        raw_board = tab["board"]
+        if not isinstance(raw_board, dict):
+            raw_board = {BOARD_POSITION: raw_board}
+            rd.default("calibration.board", f"position {BOARD_POSITION}")
+        for pos, r in raw_board.items():
+            where = f"calibration.board.{pos}"
+            if pos not in POSITIONS:
+                rd.unknown("calibration.board", pos, POSITIONS)
+                continue
+            if board_resistor_name(pos) in names:
+                rd.problem(where, f"a resistor is already named {board_resistor_name(pos)!r}")
+                continue
+            x = rd.quantity(r, where, dim_key="resistor.r[].r", nonnegative=True)
+            if x is not None:
+                board.append((pos, x))
+    rth: list[tuple[str, float]] = []
+    if "rth" in tab:
+        raw_rth = tab["rth"]
+        by_name = {s.name: s for s in sinks}
+        if not isinstance(raw_rth, dict):
+            rd.problem(
+                "calibration.rth", f"expected a table of sink = factor, got {_show(raw_rth)}"
+            )
+            raw_rth = {}
+        for sink in raw_rth:
+            if sink not in by_name:
+                rd.unknown("calibration.rth", sink, tuple(by_name))
+                continue
+            if by_name[sink].rth_to_ambient is None:
+                rd.problem(
+                    f"calibration.rth.{sink}",
+                    f"sink {sink!r} has no rth_to_ambient to scale",
+                )
+                continue
+            x = rd.number(raw_rth, sink, "calibration.rth")
+            if x is not None:
+                rth.append((sink, x))
+    record: dict[str, Any] = {}
+    if "source" in tab:
+        src = rd.table(tab["source"], "calibration.source", allowed=_SOURCE_KEYS)
+        if src is not None:
+            record["bench"] = rd.text(src, "bench", "calibration.source")
+            record["points"] = rd.integer(src, "points", "calibration.source")
+            sha = src.get("sha256")
+            if sha is not None and not (
+                isinstance(sha, str)
+                and len(sha) == 64
+                and all(ch in "0123456789abcdef" for ch in sha)
+            ):
+                rd.problem(
+                    "calibration.source.sha256",
+                    f"expected 64 lower-case hexadecimal digits, got {_show(sha)}",
+                )
+            record["sha256"] = sha
+            free = src.get("free", [])
+            if not isinstance(free, list) or not all(isinstance(f, str) for f in free):
+                rd.problem(
+                    "calibration.source.free", f"expected a list of names, got {_show(free)}"
+                )
+                free = []
+            record["free"] = tuple(free)
+    if len(rd.problems) > n_problems:
+        return None
+    return ScaleFactors(
+        **{g: v for g, v in groups.items() if v is not None},
+        board=tuple(sorted(board)),
+        rth=tuple(sorted(rth)),
+        **record,
+    )

@@ -279,6 +279,7 @@ class LimitReport:
     grid: str = ""
     not_checked: tuple[tuple[str, str, str], ...] = ()
     envelope: dict[str, tuple[float, ...]] = field(default_factory=dict, repr=False)
+    calibration: str = ""
 
     @property
     def varying_axes(self) -> tuple[str, ...]:
@@ -762,6 +763,7 @@ def check_limits(design: Design, *, derating: str | None = None,
         design_name=design.name, derating=label, corner=corner, rows=tuple(rows),
         worst_status=worst, cautions=CAUTIONS, grid=text, not_checked=tuple(missing),
         envelope={a: tuple(float(v) for v in axes[a]) for a in AXES},
+        calibration=design.calibration.describe() if design.calibration else "",
     )
 
 

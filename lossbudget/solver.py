@@ -17,7 +17,7 @@ from dataclasses import dataclass, field, fields, replace
 import numpy as np
 
 from lossbudget.budget import AXES, Budget, MechanismStatus
-from lossbudget.design import Corner, Design, Diode, Mosfet
+from lossbudget.design import Corner, Design, Diode, Mosfet, ScaleFactors
 from lossbudget.errors import DesignError
 from lossbudget.factorial import Variants, stacked_design, take
 from lossbudget.losses import capacitors as capm
@@ -193,6 +193,7 @@ class _Context:
     overshoot: bool
     edges_not_modelled: dict[tuple[str, str], str]
     notes: list[str] = field(default_factory=list)
+    scale: ScaleFactors = field(default_factory=ScaleFactors)
 
 
 def _context(design: Design, corner: Corner) -> _Context:
@@ -269,7 +270,7 @@ def _context(design: Design, corner: Corner) -> _Context:
         l=ind.l.pick(corner),
         l_at_i=ind.l_at_i,
         l_points=tuple(v.pick(corner) for v in ind.l_points),
-        dcr=ind.dcr.pick(corner),
+        dcr=ind.dcr.pick(corner) * (design.calibration or ScaleFactors()).copper,
         r_pos=r_pos,
         caps=caps,
         cap_c=tuple(c.c.pick(corner) for c in caps),
@@ -285,6 +286,7 @@ def _context(design: Design, corner: Corner) -> _Context:
         edges_not_modelled=edges_not_modelled,
         overshoot=overshoot,
         notes=notes,
+        scale=design.calibration or ScaleFactors(),
     )
 
 
@@ -301,6 +303,11 @@ def _at_points(ctx: _Context, g: _Grid) -> _Context:
         ctx,
         **{f.name: take(getattr(ctx, f.name), idx) for f in fields(ctx) if f.name != "network"},
     )
+
+
+def thermal_nodes(design: Design) -> tuple[str, ...]:
+    """Names of the thermal network's nodes (parts, cases, sinks), as the budget reports them."""
+    return _network(design).nodes
 
 
 def thermal_paths(design: Design) -> tuple[tuple[str, str, float, str], ...]:
@@ -336,10 +343,13 @@ def thermal_paths(design: Design) -> tuple[tuple[str, str, float, str], ...]:
     part("inductor", design.inductor.thermal, design.inductor.count)
     for c in design.capacitors:
         part(c.name, c.thermal, c.count)
+    rth_scale = dict(design.calibration.rth) if design.calibration else {}
     for s in design.sinks:
         if s.rth_to_ambient is not None:
-            res.append((s.name, "ambient", s.rth_to_ambient,
-                        f"thermal.sink {s.name}: rth_to_ambient"))
+            scaled = rth_scale.get(s.name, 1.0)
+            res.append((s.name, "ambient", s.rth_to_ambient * scaled,
+                         f"thermal.sink {s.name}: rth_to_ambient"
+                         + (f" × calibration.rth.{s.name} {scaled:g}" if scaled != 1.0 else "")))
     for link in design.links:
         res.append((link.between[0], link.between[1], link.rth, "thermal.link"))
     return tuple(res)
@@ -684,6 +694,16 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, ring_q, reasons=True):
     return out, zero, dead
 
 
+def _calibrated(ctx: _Context, losses: dict) -> dict:
+    """Losses with the design's calibration factors on the edge energies and the core."""
+    k = ctx.scale
+    factor = {"turn_on": k.switching, "turn_off": k.switching, "coss": k.coss}
+    out = {key: val * factor.get(key[1], 1.0) for key, val in losses.items()}
+    if ("inductor", "core") in out:
+        out["inductor", "core"] = out["inductor", "core"] * k.core
+    return out
+
+
 def _cap_losses(ctx: _Context, st, *, position, wave, v_dc, fsw, temps, full=True):
     """ESR losses of the banks at one position sharing a ripple current by impedance.
 
@@ -761,7 +781,8 @@ def _evaluate(
     sw, rc = ctx.sw, ctx.rect
     shape = g.vin.shape
     t_sw, t_r, t_l = temps["switch"], temps["rectifier"], temps["inductor"]
-    rds_sw = mos.rds_on_at(t_sw, t_points=sw.t_points, r_points=sw.r_points) / sw.count
+    k_ch = ctx.scale.conduction
+    rds_sw = mos.rds_on_at(t_sw, t_points=sw.t_points, r_points=sw.r_points) / sw.count * k_ch
     extrap = mos.rds_on_extrapolated(t_sw, t_points=sw.t_points)
     notes = _note(
         np.full(shape, "", dtype=object),
@@ -769,7 +790,7 @@ def _evaluate(
         "switch Rds(on) extrapolated above its hottest point",
     )
     if ctx.sync:
-        r_rc = mos.rds_on_at(t_r, t_points=rc.t_points, r_points=rc.r_points) / rc.count
+        r_rc = mos.rds_on_at(t_r, t_points=rc.t_points, r_points=rc.r_points) / rc.count * k_ch
         extrap_rc = mos.rds_on_extrapolated(t_r, t_points=rc.t_points)
         notes = _note(notes, extrap_rc, "rectifier Rds(on) extrapolated above its hottest point")
         extrap = extrap | extrap_rc
@@ -797,7 +818,7 @@ def _evaluate(
     if ctx.gate_drive:
         qg_total = sw.qg * sw.count + (rc.qg * rc.count if ctx.sync else 0.0)
     i_gate = qg_total * g.fsw
-    i_q = d.driver.quiescent if np.isfinite(d.driver.quiescent) else 0.0
+    i_q = (d.driver.quiescent if np.isfinite(d.driver.quiescent) else 0.0) * ctx.scale.quiescent
     i_sup = i_gate + i_q
     supply = d.driver.supply
     i_out = g.load + (i_sup if supply == "vout" else 0.0)
@@ -930,6 +951,7 @@ def _evaluate(
         )
         for key in ctx.edges_not_modelled:  # no gate data: the edge is not modelled
             edge.pop(key, None)
+        edge = _calibrated(ctx, edge)
         i_in_total = st.i_in_avg + (i_sup if supply == "vin" else 0.0)
         # an infeasible point keeps its first, finite inputs so that its reason stays the
         # stage's own (NaN would turn every check false). Behind an input resistor R the
@@ -955,6 +977,7 @@ def _evaluate(
                 ctx, st, g=g, vin_eff=vin_eff, vc=vc, temps=temps, dcr=dcr, full=report,
                 l_part=l_used,
             )
+            slow["losses"] = _calibrated(ctx, slow["losses"])
         if step == 0:
             slow_first = slow
         if probe and step == INNER_STEPS_THERMAL - 1:
@@ -1962,5 +1985,6 @@ def _provenance(ctx: _Context, corner: Corner) -> dict:
         "laws": laws,
         "defaults": [f"{k} = {v}" for k, v in d.defaults],
         "warnings": list(d.warnings),
-        "notes": list(ctx.notes),
+        "notes": ([d.calibration.describe()] if d.calibration else []) + list(ctx.notes),
+        "calibration": d.calibration.describe() if d.calibration else "none",
     }

@@ -88,6 +88,8 @@ def check_report(report) -> str:
            "saturation current)" if report.corner == "worst" else " (typical: not a worst case)"),
         f"  derating: {report.derating}",
     ]
+    if report.calibration:
+        lines.extend(_wrap(report.calibration, "  "))
     if fixed:
         lines.append("  throughout: " + ", ".join(
             f"{a} {format_quantity(report.envelope[a][0], _DIMS[a])}" for a in fixed))
