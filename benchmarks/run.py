@@ -82,6 +82,36 @@ def _case(name: str) -> None:
                       "peak_gb": peak_kb * 1024 / 1e9}))
 
 
+def _variants_case() -> None:
+    """100 design variants × a 20 × 20 map, coupled thermal, in this process (JSON out).
+
+    The variants are the demo design with 10 inductances × 10 switch junction-to-case
+    resistances, so every variant has its own thermal network; one vectorised solve.
+    """
+    import importlib.resources
+
+    import numpy as np
+
+    import lossbudget
+    from lossbudget.factorial import variants
+
+    design = lossbudget.load_design(importlib.resources.files("lossbudget") / "data"
+                                    / "demo.toml")
+    op = design.operating
+    v = variants(design, vary={"inductor.l": np.linspace(15e-6, 33e-6, 10),
+                               "switch.thermal.rth_jc": np.linspace(0.5, 1.4, 10)})
+    vin = np.linspace(op.vin.min, op.vin.max, 20)
+    load = np.linspace(0.01, 1.0, 20) * op.iout_rated
+    lossbudget.sweep(v, vin=vin[:2], load=load[:2])  # warm the imports and caches
+    best = float("inf")
+    for _ in range(3):
+        t0 = time.perf_counter()
+        budget = lossbudget.sweep(v, vin=vin, load=load)
+        best = min(best, time.perf_counter() - t0)
+    print(json.dumps({"points": int(budget.efficiency.size), "seconds": best,
+                      "variants": len(v)}))
+
+
 def _child(name: str) -> dict:
     out = subprocess.run([sys.executable, __file__, "--case", name], capture_output=True,
                          text=True, check=True)
@@ -114,6 +144,9 @@ def main() -> None:
     parser.add_argument("--quick", action="store_true", help="skip the 1000 × 1000 map")
     parser.add_argument("--case", help=argparse.SUPPRESS)
     args = parser.parse_args()
+    if args.case == "variants100":
+        _variants_case()
+        return
     if args.case:
         _case(args.case)
         return
@@ -128,6 +161,13 @@ def main() -> None:
                        f"{rate:,.0f} pt/s", f">= {TARGETS['map100']:,.0f} pt/s",
                        rate >= TARGETS["map100"]))
     lines.append(f"{'':<44} {m['seconds']:>14.3f} s   (target 0.2 s)")
+    single_rate = rate
+    m = _child("variants100")
+    rate = m["points"] / m["seconds"]
+    lines.append(_line("100 variants × 20 × 20, coupled (best of 3)", f"{rate:,.0f} pt/s",
+                       f">= {single_rate:,.0f} pt/s", rate >= single_rate))
+    lines.append(f"{'':<44} {m['seconds']:>14.3f} s   (target: the 100 × 100 map's rate "
+                 "above, no dearer per point)")
     if args.quick:
         lines.append("1000 × 1000 map: skipped (--quick)")
     else:

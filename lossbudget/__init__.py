@@ -1,9 +1,10 @@
 """lossbudget: efficiency and thermal loss budgets for switched-mode DC-DC converters.
 
 Public API: :func:`load_design`, :func:`solve`, :func:`sweep`, :func:`check_limits`,
-:func:`write_workbook`, :func:`calibrate`, :class:`DesignError`. ``import lossbudget`` loads
-the engine with numpy only; scipy, pandas, matplotlib, openpyxl and tomlkit load when a
-function needs them.
+:func:`write_workbook`, :func:`variants` (design variants: parts files, varied keys),
+:func:`compare` (ranking the variants), :func:`calibrate`, :class:`DesignError`.
+``import lossbudget`` loads the engine with numpy only; scipy, pandas, matplotlib, openpyxl and
+tomlkit load when a function needs them.
 """
 
 from __future__ import annotations
@@ -15,6 +16,7 @@ __version__ = "0.1.0"
 from lossbudget.budget import Budget
 from lossbudget.design import Design, load_design
 from lossbudget.errors import DesignError
+from lossbudget.factorial import Variants, variants
 from lossbudget.solver import solve
 from lossbudget.sweep import sweep
 
@@ -22,6 +24,7 @@ _LAZY = {
     "check_limits": ("lossbudget.limits", "check_limits"),
     "LimitReport": ("lossbudget.limits", "LimitReport"),
     "write_workbook": ("lossbudget.output.workbook", "write_workbook"),
+    "compare": ("lossbudget.ranking", "compare"),
     "calibrate": ("lossbudget.calibration", "calibrate"),
     "Calibration": ("lossbudget.calibration", "Calibration"),
 }
@@ -40,9 +43,11 @@ __all__ = [
     "Budget",
     "Design",
     "DesignError",
+    "Variants",
     "__version__",
     "load_design",
     "solve",
     "sweep",
+    "variants",
     *_LAZY,
 ]

@@ -42,11 +42,14 @@ class MechanismStatus:
     ``kind`` is ``computed``, ``not_applicable`` or ``not_modelled``; ``note`` says why (the
     key that would enable a mechanism not modelled). ``zero_reason`` holds, per point, why a
     computed mechanism is zero by physics there ("" where it is not zero by physics).
+    ``by_point`` serves design variants whose treatments differ: per point, the status text
+    where the mechanism is not computed in that point's variant ("" where it is computed).
     """
 
     kind: str
     note: str = ""
     zero_reason: np.ndarray | None = None
+    by_point: np.ndarray | None = None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -73,6 +76,7 @@ class Budget:
     loop_gain: np.ndarray = field(repr=False)
     over_rating_reason: np.ndarray | None = field(default=None, repr=False)
     diverging_temperatures: dict[str, np.ndarray] = field(default_factory=dict, repr=False)
+    variant_labels: tuple[str, ...] | None = None
 
     # -- derived figures -------------------------------------------------------------------
 
@@ -160,7 +164,10 @@ class Budget:
         if st.zero_reason is not None:
             zr = np.broadcast_to(st.zero_reason, self.shape)
             out = np.where(zr != "", "zero: " + zr.astype(str).astype(object), out)
-        return np.where(self.flagged, "flagged", out)
+        out = np.where(self.flagged, "flagged", out)
+        if st.by_point is not None:
+            out = np.where(st.by_point != "", st.by_point, out)
+        return out
 
     def temperature(self, node: str) -> np.ndarray:
         """Temperature of a thermal node. [degC]"""
@@ -188,9 +195,18 @@ class Budget:
 
     # -- tables ----------------------------------------------------------------------------
 
+    @property
+    def variants(self) -> int | None:
+        """Number of design variants along the first axis (None for a single design)."""
+        return None if self.variant_labels is None else len(self.variant_labels)
+
     def _axes_frame(self) -> dict[str, np.ndarray]:
         flat = {AXIS_COLUMNS[a]: np.broadcast_to(self.coords[a], self.shape).ravel() for a in AXES}
-        return {"point_id": np.arange(int(np.prod(self.shape))), **flat}
+        head: dict[str, np.ndarray] = {"point_id": np.arange(int(np.prod(self.shape)))}
+        if self.variant_labels is not None:
+            labels = np.asarray(self.variant_labels, dtype=object)
+            head["variant"] = labels[np.broadcast_to(self.coords["variant"], self.shape).ravel()]
+        return {**head, **flat}
 
     def point_table(self):
         """One row per operating point (SPEC §7)."""

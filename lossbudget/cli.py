@@ -167,6 +167,10 @@ from lossbudget.commands.exporting import export  # noqa: E402
 
 main.add_command(export)
 
+from lossbudget.commands.comparing import compare_command  # noqa: E402
+
+main.add_command(compare_command)
+
 from lossbudget.commands.calibrating import calibrate_command  # noqa: E402
 
 main.add_command(calibrate_command)

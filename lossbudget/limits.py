@@ -25,7 +25,7 @@ from lossbudget.budget import AXES, AXIS_COLUMNS, Budget
 from lossbudget.cautions import CAUTIONS
 from lossbudget.design import DERATING_PROFILES, MARGIN_QUANTITIES, Corner, Design, Diode
 from lossbudget.errors import DesignError
-from lossbudget.ratings import Rating, full_where_solved, i_sat_at, part_ratings
+from lossbudget.ratings import Rating, full_where_solved, i_sat_at, part_ratings, per_variant
 from lossbudget.solver import solve
 from lossbudget.sweep import sweep
 from lossbudget.units import format_quantity
@@ -38,6 +38,7 @@ KIND_QUANTITIES: dict[str, tuple[str, ...]] = MARGIN_QUANTITIES
 BASIS_STATUSES = ("published", "common practice", "from memory (verify)", "absolute rating")
 
 # The envelope grid: load fractions of the rated output current, points per axis.
+VARIANT_BLOCK_POINTS = 250_000  # operating points per sweep of the variants' envelope check
 LOAD_FRACTIONS = (0.02, 0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0)
 VIN_POINTS = 7
 REFINE_TOLERANCE = 0.01  # of each axis's span (load: of the rated current)
@@ -357,7 +358,8 @@ def _checks(design: Design, corner: Corner) -> tuple[list[Rating], list[tuple[st
                 part=cap.name, quantity="life", unit="h", kind=None, lower_is_worse=True,
                 label="life under life.required", per_point=False,
                 measure=lambda b, name=cap.name, life=life: (
-                    electrolytic_life_10k(b.temperature(name), rated=life.rated, at=life.at),
+                    electrolytic_life_10k(b.temperature(name), rated=per_variant(life.rated, b),
+                                          at=per_variant(life.at, b)),
                     full_where_solved(b, life.required)),
                 note=life_note,
             ))
@@ -670,6 +672,9 @@ def check_limits(design: Design, *, derating: str | None = None,
     -------
     LimitReport
         A row per part and limit, the worst status, the cautions and the grid described.
+        Given a :class:`~lossbudget.factorial.Variants` instead of a design: a
+        :class:`VariantLimits`, every variant checked on the envelope grid in one vectorised
+        sweep (without the local refinement), with its worst status, limit and margin.
 
     Notes
     -----
@@ -682,6 +687,10 @@ def check_limits(design: Design, *, derating: str | None = None,
     """
     if corner not in ("typ", "worst"):
         raise ValueError(f"corner: expected 'typ' or 'worst', got {corner!r}")
+    from lossbudget.factorial import Variants
+
+    if isinstance(design, Variants):
+        return _variant_limits(design, derating=derating, corner=corner)
     label, margins = _margins_for(design, derating)
     checks, missing = _checks(design, corner)
     axes = _envelope(design)
@@ -758,5 +767,146 @@ def check_limits(design: Design, *, derating: str | None = None,
     )
 
 
-__all__ = ["LimitReport", "LimitRow", "Margin", "check_limits", "derating_profiles",
-           "electrolytic_life_10k", "i_sat_at", "point_ratings"]
+# --------------------------------------------------------------------------------------------
+# design variants: the envelope check of every variant in one vectorised sweep
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True, kw_only=True, eq=False)
+class VariantLimits:
+    """The envelope check of every design variant: arrays over the variants.
+
+    ``table`` holds one row per variant and limit (``variant``, ``part``, ``quantity``,
+    ``worst``, ``design_limit``, ``absolute_limit``, ``margin``, ``margin_unit``, ``headroom``,
+    ``status``). ``headroom`` puts the margins on one scale: the fraction of the design limit
+    left (voltages, currents, flux, life), and for temperatures the fraction of the allowed
+    rise above the hottest ambient left, (T_design − T_worst)/(T_design − T_ambient,max).
+    Per variant: ``worst_status``, the ``worst_limit`` (part.quantity of the lowest headroom
+    among the rows of the worst status, or the stage's runaway or regulation) and its
+    ``worst_margin`` and ``worst_headroom``.
+    """
+
+    labels: tuple[str, ...]
+    derating: str
+    corner: Corner
+    worst_status: np.ndarray
+    worst_limit: np.ndarray
+    worst_margin: np.ndarray
+    worst_margin_unit: np.ndarray
+    worst_headroom: np.ndarray
+    table: Any
+    grid: str
+    cautions: tuple[str, ...] = CAUTIONS
+
+
+def _variant_limits(variants, *, derating: str | None, corner: Corner) -> VariantLimits:
+    """Envelope check of design variants: one sweep over variants × the envelope grid."""
+    import pandas as pd
+
+    from lossbudget.factorial import stacked_design, subset
+
+    base = variants.base
+    label, margins = _margins_for(base, derating)
+    axes = _envelope(base)
+    per_variant_fsw = "operating.fsw" in variants.values
+    if per_variant_fsw:
+        # each variant at its own switching frequency (its nominal)
+        axes = {a: x for a, x in axes.items() if a != "fsw"}
+    n = variants.size
+    t_amb = float(axes["ambient"].max())
+    labels = tuple(str(x) for x in variants.labels)
+    records = []
+    order = np.zeros(n, dtype=int)  # status index of the worst row
+    head = np.full(n, np.inf)
+    w_limit = np.full(n, "", dtype=object)
+    w_margin = np.full(n, np.nan)
+    w_unit = np.full(n, "", dtype=object)
+    grid_points = int(np.prod([x.size for x in axes.values()]))
+    block = max(1, VARIANT_BLOCK_POINTS // grid_points)
+    # structure groups, each one vectorised sweep over blocks of its variants (a block of
+    # variants × the envelope is a few hundred thousand points, so memory stays bounded)
+    blocks = [g[s:s + block] for g in variants.groups() for s in range(0, g.size, block)]
+    for members in blocks:
+        sub = subset(variants, members)
+        sd = stacked_design(sub, np.arange(members.size))
+        b = sweep(sub, corner=corner, **axes)
+        m = members.size
+        checks, _ = _checks(sd, corner)
+        rows = []
+        for c in checks:
+            value, absolute = c.measure(b)
+            value = np.broadcast_to(value, b.shape).reshape(m, -1)
+            absolute = np.broadcast_to(absolute, b.shape).reshape(m, -1)
+            key = _key(c, value, absolute)
+            finite = np.isfinite(key)
+            k = np.argmax(np.where(finite, key, -np.inf), axis=1)
+            pick = np.arange(m)
+            worst = np.where(finite.any(axis=1), value[pick, k], np.nan)
+            absl = np.where(finite.any(axis=1), absolute[pick, k], np.nan)
+            if c.kind is None:
+                design_limit = absl
+            else:
+                design_limit = margins[c.kind, c.quantity].design_limit(absl)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                if c.unit == "degC":
+                    margin, unit = design_limit - worst, "K"
+                    headroom = margin / (design_limit - t_amb)
+                elif c.lower_is_worse:
+                    margin, unit = (worst - design_limit) / design_limit, "fraction"
+                    headroom = margin
+                else:
+                    margin, unit = (design_limit - worst) / design_limit, "fraction"
+                    headroom = margin
+                if c.lower_is_worse:
+                    status = np.where(worst < absl, 2, np.where(worst < design_limit, 1, 0))
+                else:
+                    status = np.where(worst > absl, 2, np.where(worst > design_limit, 1, 0))
+            status = np.where(np.isfinite(worst), status, 2)
+            rows.append((f"{c.part}.{c.quantity}", c, worst, design_limit, absl, margin, unit,
+                         headroom, status))
+        bad = {f: b.flags[f].reshape(m, -1).any(axis=1) for f in b.flags}
+        thermal = bad["runaway"] | bad["not_converged"]
+        regulation = bad["infeasible"]
+        nan = np.full(m, np.nan)
+        rows.append(("stage.thermal", None, nan, nan, nan, nan, "", np.where(thermal, -np.inf,
+                                                                              np.nan),
+                     np.where(thermal, 2, 0)))
+        rows.append(("stage.regulation", None, nan, nan, nan, nan, "",
+                     np.where(regulation, -np.inf, np.nan), np.where(regulation, 1, 0)))
+        for name, c, worst, dl, absl, margin, unit, headroom, status in rows:
+            part, qty = name.split(".", 1)
+            records.append(pd.DataFrame({
+                "variant_id": members, "variant": np.asarray(labels, dtype=object)[members],
+                "part": part, "quantity": qty, "unit": c.unit if c is not None else "",
+                "worst": worst, "design_limit": dl, "absolute_limit": absl, "margin": margin,
+                "margin_unit": unit, "headroom": headroom,
+                "status": np.asarray(STATUS_ORDER, dtype=object)[status],
+            }))
+            g_order, g_head = order[members], head[members]
+            h = np.where(np.isnan(headroom), np.inf, headroom)
+            better = (status > g_order) | ((status == g_order) & (h < g_head))
+            take = better & ((status > 0) | np.isfinite(h))
+            idx = members[take]
+            order[idx] = status[take]
+            head[idx] = h[take]
+            w_limit[idx] = name
+            w_margin[idx] = margin[take]
+            w_unit[idx] = unit
+    table = pd.concat(records, ignore_index=True).sort_values(
+        ["variant_id"], kind="stable").reset_index(drop=True)
+    sizes = " × ".join(f"{axes[a].size} {a}" for a in AXES if a in axes)
+    if per_variant_fsw:
+        sizes += " at each variant's own fsw"
+    text = (f"envelope grid {sizes} per variant at the {corner}-case part values, one "
+            "vectorised sweep over the variants; each limit's worst point is the worst grid "
+            "point (the single-design check's local refinement is not run per variant)")
+    return VariantLimits(
+        labels=labels, derating=label, corner=corner,
+        worst_status=np.asarray(STATUS_ORDER, dtype=object)[order],
+        worst_limit=w_limit, worst_margin=w_margin, worst_margin_unit=w_unit,
+        worst_headroom=np.where(np.isfinite(head), head, np.nan), table=table, grid=text,
+    )
+
+
+__all__ = ["LimitReport", "LimitRow", "Margin", "VariantLimits", "check_limits",
+           "derating_profiles", "electrolytic_life_10k", "i_sat_at", "point_ratings"]

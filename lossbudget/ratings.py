@@ -79,6 +79,26 @@ def i_sat_at(t, *, points_t, points_i):
     t = np.asarray(t, dtype=float)
     pt = np.asarray(points_t, dtype=float)
     pi = np.asarray(points_i, dtype=float)
+    if pt.ndim > 1 or pi.ndim > 1:
+        # one table per point (design variants): the same rule, the points on the last axis
+        if pt.shape[-1] == 1:
+            return np.broadcast_to(np.maximum(pi[..., 0], 0.0), np.broadcast_shapes(
+                t.shape, pi.shape[:-1])).copy()
+        slope = (pi[..., -1] - pi[..., -2]) / (pt[..., -1] - pt[..., -2])
+        below = t < pt[..., 0]
+        seg = np.clip(np.sum(t[..., np.newaxis] >= pt, axis=-1) - 1, 0, pt.shape[-1] - 2)
+        shape = np.broadcast_shapes(t.shape, pt.shape[:-1], pi.shape[:-1])
+
+        def at(tab, k):
+            full = np.broadcast_to(tab, (*shape, tab.shape[-1]))
+            return np.take_along_axis(full, np.broadcast_to(k, shape)[..., np.newaxis],
+                                      axis=-1)[..., 0]
+
+        slopes = np.diff(pi, axis=-1) / np.diff(pt, axis=-1)
+        inner = at(pi, seg) + at(slopes, seg) * (t - at(pt, seg))
+        hot = pi[..., -1] + slope * (t - pt[..., -1])
+        value = np.where(below, pi[..., 0], np.where(t > pt[..., -1], hot, inner))
+        return np.maximum(value, 0.0)
     if pt.size == 1:
         return np.full(t.shape, pi[0])
     slope = (pi[-1] - pi[-2]) / (pt[-1] - pt[-2])
@@ -86,8 +106,22 @@ def i_sat_at(t, *, points_t, points_i):
     return np.maximum(np.where(t > pt[-1], hot, np.interp(t, pt, pi)), 0.0)
 
 
+def per_variant(x, b: Budget, trailing: int = 0) -> np.ndarray:
+    """Per-variant values shaped to broadcast along a variant budget's first axis.
+
+    A scalar (or, with ``trailing``, a table of that many axes) is returned as it is.
+    """
+    x = np.asarray(x, dtype=float)
+    if x.ndim == trailing:
+        return x
+    tail = x.shape[x.ndim - trailing:] if trailing else ()
+    return x.reshape((x.shape[0],) + (1,) * (len(b.shape) - 1) + tail)
+
+
 def full_where_solved(b: Budget, x: float) -> np.ndarray:
     """``x`` at every solved point of a budget, NaN where a point is flagged."""
+    if np.ndim(x):  # one value per design variant, the budget's first axis
+        return np.where(b.flagged, np.nan, per_variant(x, b))
     return np.where(b.flagged, np.nan, float(x))
 
 
@@ -164,11 +198,12 @@ def part_ratings(design: Design, corner: Corner) -> tuple[list[Rating], list[tup
         pts_t, pts_i = ind.i_sat.t, ind.i_sat.pick(corner)
 
         def i_sat(b: Budget) -> np.ndarray:
-            return i_sat_at(b.temperature("inductor"), points_t=pts_t, points_i=pts_i)
+            return i_sat_at(b.temperature("inductor"), points_t=per_variant(pts_t, b, 1),
+                            points_i=per_variant(pts_i, b, 1))
 
         def sat_note(b: Budget, k: int, what: str) -> str:
             t = float(b.temperature("inductor").ravel()[k])
-            extra = ", extrapolated above the hottest point" if t > pts_t[-1] else ""
+            extra = ", extrapolated above the hottest point" if t > np.max(pts_t) else ""
             return (f"{what} against i_sat at the inductor's {_q(t, 'temperature')} "
                     f"({corner}-case i_sat points, interpolated{extra})")
 

@@ -12,21 +12,22 @@ The result is a :class:`~lossbudget.budget.Budget`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 
 import numpy as np
 
 from lossbudget.budget import AXES, Budget, MechanismStatus
 from lossbudget.design import Corner, Design, Diode, Mosfet, ScaleFactors
 from lossbudget.errors import DesignError
+from lossbudget.factorial import Variants, stacked_design, take
 from lossbudget.losses import capacitors as capm
 from lossbudget.losses import diode as dio
+from lossbudget.losses import edges as edg
 from lossbudget.losses import inductance as ind_m
 from lossbudget.losses import magnetics as mag
 from lossbudget.losses import mosfet as mos
 from lossbudget.losses import overshoot as osh
 from lossbudget.losses import ring as rng
-from lossbudget.losses import ring_trajectory as rtr
 from lossbudget.ratings import over_rating, part_ratings
 from lossbudget.thermal import build_network, solve_coupled
 from lossbudget.topologies import STAGES
@@ -47,7 +48,6 @@ is flagged not_converged with both figures."""
 THERMAL_TOL = 0.01
 CEILING = 300.0
 EDGE_MECHANISMS = ("turn_on", "turn_off", "coss", "dead_time", "reverse_recovery")
-AVERAGED_SAMPLES = 16  # phase samples over one ring period (dcm_turn_on = "averaged")
 
 
 # --------------------------------------------------------------------------------------------
@@ -89,6 +89,18 @@ class _Diode:
     leakage: tuple[float, float, float, float] | None
 
 
+def _num(x):
+    """A float from a 0-d result; an array (one value per variant) stays an array."""
+    return float(x) if np.ndim(x) == 0 else np.asarray(x, dtype=float)
+
+
+def _text(x) -> str:
+    """A number for a note; the range where it differs between variants."""
+    if np.ndim(x) == 0:
+        return f"{float(x):g}"
+    return f"{float(np.min(x)):g}..{float(np.max(x)):g} (by variant)"
+
+
 def _pick(v, corner: Corner) -> float:
     """A value at a corner, NaN where the design does not give it (not modelled)."""
     return np.nan if v is None else v.pick(corner)
@@ -98,16 +110,16 @@ def _fet(m: Mosfet, corner: Corner) -> _Fet:
     if m.qgs2 is not None:
         qgs2 = m.qgs2.pick(corner)
     elif m.has_gate_timing:
-        qgs2 = float(
+        qgs2 = _num(
             mos.gate_plateau_charge_qgs2(m.qgs.pick(corner), v_th=m.v_th, v_plateau=m.v_plateau)
         )
     else:
         qgs2 = np.nan
     a = ae = None
     if m.qoss is not None:
-        a = float(mos.charge_coefficient_from_q(m.qoss.value.pick(corner), v_ref=m.qoss.at))
+        a = _num(mos.charge_coefficient_from_q(m.qoss.value.pick(corner), v_ref=m.qoss.at))
     if m.eoss is not None:
-        ae = float(mos.charge_coefficient_from_e(m.eoss.value.pick(corner), v_ref=m.eoss.at))
+        ae = _num(mos.charge_coefficient_from_e(m.eoss.value.pick(corner), v_ref=m.eoss.at))
         if a is None:
             a = ae
     bd = m.body_diode
@@ -142,7 +154,7 @@ def _diode(d: Diode, corner: Corner) -> _Diode:
         vf0_v=d.vf0.pick(corner),
         rd_t=d.rd.t,
         rd_v=d.rd.pick(corner),
-        a=float(mos.charge_coefficient_from_q(d.qc.value.pick(corner), v_ref=d.qc.at))
+        a=_num(mos.charge_coefficient_from_q(d.qc.value.pick(corner), v_ref=d.qc.at))
         if d.qc
         else None,
         qrr=(d.qrr.q.pick(corner), d.qrr.at_i, d.qrr.at) if d.qrr else None,
@@ -203,9 +215,9 @@ def _context(design: Design, corner: Corner) -> _Context:
                 "(toroid, drum core) and near an air gap; treat the AC copper loss as indicative"
             )
         if w.rac_rdc is not None:
-            delta1_ref = float(mag.dowell_delta_from_factor(w.rac_rdc, layers=layers))
+            delta1_ref = _num(mag.dowell_delta_from_factor(w.rac_rdc, layers=layers))
             notes.append(
-                f"copper_ac: Dowell's Δ1 back-solved from rac_rdc = {w.rac_rdc:g} at the "
+                f"copper_ac: Dowell's Δ1 back-solved from rac_rdc = {_text(w.rac_rdc)} at the "
                 "nominal fsw and 25 degC" + ("" if w.layers else ", layers = 1 assumed")
             )
     if ind.l_at_i:
@@ -278,6 +290,21 @@ def _context(design: Design, corner: Corner) -> _Context:
     )
 
 
+def _at_points(ctx: _Context, g: _Grid) -> _Context:
+    """The context with every per-variant array taken at the points' variants.
+
+    A single design's context holds no such arrays and is returned as it is. The thermal
+    network stays whole: its per-variant transfer resistances are taken by the coupled solve.
+    """
+    if g.variant is None:
+        return ctx
+    idx = g.variant
+    return replace(
+        ctx,
+        **{f.name: take(getattr(ctx, f.name), idx) for f in fields(ctx) if f.name != "network"},
+    )
+
+
 def thermal_nodes(design: Design) -> tuple[str, ...]:
     """Names of the thermal network's nodes (parts, cases, sinks), as the budget reports them."""
     return _network(design).nodes
@@ -295,7 +322,8 @@ def thermal_paths(design: Design) -> tuple[tuple[str, str, float, str], ...]:
     res: list[tuple[str, str, float, str]] = []
 
     def part(name: str, th, count: int) -> None:
-        per = f" / count {count}" if count > 1 else ""
+        per = (f" / count {count}" if count > 1 else "") if np.ndim(count) == 0 else (
+            " / count (by variant)")
         if th.sink is not None:
             if th.rth_jc is not None and th.rth_cs is not None:
                 res.append((name, f"{name}.case", th.rth_jc / count, f"{name}.thermal.rth_jc{per}"))
@@ -355,9 +383,13 @@ class _Grid:
     load: np.ndarray
     ambient: np.ndarray
     fsw: np.ndarray
+    variant: np.ndarray | None = None
 
     def take(self, index) -> _Grid:
-        return _Grid(**{a: getattr(self, a)[index] for a in AXES})
+        return _Grid(
+            **{a: getattr(self, a)[index] for a in AXES},
+            variant=None if self.variant is None else self.variant[index],
+        )
 
 
 @dataclass(slots=True, kw_only=True)
@@ -422,7 +454,7 @@ def _gate_timing(fet: _Fet, drv) -> tuple:
 
 def _ring_charge(ctx: _Context) -> tuple[float, float]:
     """Charge coefficients of the switch and the opposite device on the C ∝ v^-1/2 law."""
-    return ctx.sw.a or 0.0, ctx.rect.a or 0.0
+    return (0.0 if ctx.sw.a is None else ctx.sw.a), (0.0 if ctx.rect.a is None else ctx.rect.a)
 
 
 def _delta1(ctx: _Context, f, t_l):
@@ -448,7 +480,7 @@ def _ring_q(ctx: _Context, st, *, dcr, t_l, r_loop):
     (SPEC §2.3). Returns (Q, R_ring), or None where the node holds no charge.
     """
     a_s, a_o = _ring_charge(ctx)
-    if a_s + a_o <= 0.0:
+    if np.all(np.asarray(a_s + a_o) <= 0.0):
         return None
     ind = ctx.design.inductor
     # the ring runs at (almost) zero inductor current: the inductance at its lowest-current point
@@ -485,59 +517,28 @@ def _ring_q(ctx: _Context, st, *, dcr, t_l, r_loop):
 def _ring_turn_on(ctx: _Context, st, *, v, fsw, q):
     """The DCM node ring at the main switch's turn-on: coss and decay energies per cycle.
 
-    ``dcm_turn_on``: "ring" turns on at the ring's voltage at the end of the idle interval,
-    "valley" at the last valley reached within it, "averaged" takes the mean energy over the
-    last small-signal ring period of the idle interval (a jittering turn-on instant). The
-    switch's coss is the partial-swing charge balance from that voltage, so at zero idle time
-    it is the CCM hard value. None where the node holds no charge.
+    The context's charges, inductance and ``dcm_turn_on`` for
+    :func:`lossbudget.losses.edges.dcm_turn_on_energies`; None where the node holds no charge.
     """
     a_s, a_o = _ring_charge(ctx)
-    if a_s + a_o <= 0.0 or q is None:
+    if np.all(np.asarray(a_s + a_o) <= 0.0) or q is None:
         return None
-    sw, rc = ctx.sw, ctx.rect
-    ae_op = rc.ae if ctx.sync else None
-    l_stage = ctx.l / ctx.design.inductor.count
-    mode = ctx.design.operating.dcm_turn_on
-    dcm = np.broadcast_to(st.dcm, np.shape(v))
-    # CCM points turn on hard from the full edge voltage: the ring's value at zero idle time
-    e_coss = mos.hard_turn_on_coss_energy(v, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op)
-    e_decay = np.zeros(np.shape(v))
-    sel = np.flatnonzero(dcm.ravel())
-    if sel.size == 0:
-        return {"e_coss": e_coss, "e_decay": e_decay}
-
-    def at(x):
-        return np.broadcast_to(x, np.shape(v)).ravel()[sel]
-
-    v_b, v_set, q_s, v_e = at(st.v_switch_block), at(st.v_switch_settled), at(q), at(v)
-    t_idle = np.maximum(1.0 - at(st.duty) - at(st.d2), 0.0) / at(fsw)
-    table = rtr.ring_table(a_s / (a_s + a_o))
-    if mode == "averaged":
-        # the mean over the last small-signal ring period of the idle interval
-        with np.errstate(invalid="ignore", divide="ignore"):
-            w0 = rng.ring_frequency_small_signal(
-                v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o
-            )
-        lo = np.maximum(t_idle - 2.0 * np.pi / w0, 0.0)
-        frac = (np.arange(AVERAGED_SAMPLES) + 0.5) / AVERAGED_SAMPLES
-        t = lo[:, None] + (t_idle - lo)[:, None] * frac
-        v_set, v_b, q_s, v_e = (x[:, None] for x in (v_set, v_b, q_s, v_e))
-    else:
-        t = t_idle
-    v_on, dec = rtr.ring_state(
-        t, v_set=v_set, v_block=v_b, l=l_stage, a_self=a_s, a_opp=a_o, q=q_s,
-        valley=mode == "valley", table=table,
+    return edg.dcm_turn_on_energies(
+        v,
+        fsw=fsw,
+        dcm=st.dcm,
+        v_block=st.v_switch_block,
+        v_set=st.v_switch_settled,
+        duty=st.duty,
+        d2=st.d2,
+        q=q,
+        l=ctx.l / ctx.design.inductor.count,
+        a_self=a_s,
+        a_opp=a_o,
+        ae_self=ctx.sw.ae,
+        ae_opp=ctx.rect.ae if ctx.sync else None,
+        mode=ctx.design.operating.dcm_turn_on,
     )
-    on = mos.partial_swing_coss_energy(
-        v_e, v_residual=v_on, a_self=a_s, a_opp=a_o, ae_self=sw.ae, ae_opp=ae_op
-    )
-    if mode == "averaged":
-        on, dec = on.mean(axis=-1), dec.mean(axis=-1)
-    e_coss = e_coss.copy().reshape(-1)
-    e_coss[sel] = on
-    e_decay = e_decay.reshape(-1)
-    e_decay[sel] = dec
-    return {"e_coss": e_coss.reshape(np.shape(v)), "e_decay": e_decay.reshape(np.shape(v))}
 
 
 def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, ring_q, reasons=True):
@@ -553,8 +554,8 @@ def _edge(ctx: _Context, st, *, v, fsw, t_sw, t_r, ring_q, reasons=True):
     dcm = st.dcm
     i_v = st.i_valley
     i_pk = st.i_pk
-    a_sw = sw.a or 0.0
-    a_op = rc.a or 0.0
+    a_sw = 0.0 if sw.a is None else sw.a
+    a_op = 0.0 if rc.a is None else rc.a
     ae_sw = sw.ae
     ae_op = rc.ae if ctx.sync else None
     q_node = mos.node_charge(v, a=a_sw) + mos.node_charge(v, a=a_op)
@@ -775,6 +776,7 @@ def _evaluate(
     tells the infeasible points, and returns that stage with the node powers a thermal
     evaluation (not full) at the same temperatures returns, which its first passes share.
     """
+    ctx = _at_points(ctx, g)
     d = ctx.design
     sw, rc = ctx.sw, ctx.rect
     shape = g.vin.shape
@@ -801,7 +803,7 @@ def _evaluate(
             ("Vf0", rc.vf0_t, rc.vf0_v, vf0),
             ("Rd", rc.rd_t, rc.rd_v, r_rc),
         ):
-            clipped = (len(t_pts) > 1) & (got <= 0.0) & (np.max(values) > 0)
+            clipped = (np.shape(t_pts)[-1] > 1) & (got <= 0.0) & (np.max(values, axis=-1) > 0)
             notes = _note(notes, clipped, f"rectifier {name} clipped at 0 outside its points")
             extrap = extrap | clipped
     ind = d.inductor
@@ -1149,7 +1151,7 @@ def _slow_losses(ctx: _Context, st, *, g: _Grid, vin_eff, vc, temps, dcr, full, 
     # an ESR line through its points continued below the floor outside them: flagged
     for k, c in enumerate(ctx.caps):
         t_pts, r_pts = ctx.cap_esr[k]
-        if len(t_pts) > 1:
+        if np.shape(t_pts)[-1] > 1:
             r_at = dio.linear_in_temperature(temps[c.name], t_points=t_pts, values=r_pts)
             low = r_at <= capm.ESR_FLOOR
             clipped = clipped | low
@@ -1293,7 +1295,7 @@ def _statuses(ctx: _Context) -> dict[tuple[str, str], tuple[str, str]]:
     st["inductor", "core"] = ("computed", "") if ind.core else ("not_modelled", "inductor.core")
     if not ctx.dcm_allowed:
         st["inductor", "ring"] = ("not_applicable", "forced-continuous: no DCM idle interval")
-    elif sum(_ring_charge(ctx)) > 0.0:
+    elif np.any(np.asarray(sum(_ring_charge(ctx))) > 0.0):
         st["inductor", "ring"] = ("computed", "")
     else:
         st["inductor", "ring"] = ("not_modelled", "switch.qoss or switch.eoss (node charge)")
@@ -1380,8 +1382,10 @@ def solve(
 
     Parameters
     ----------
-    design : Design
-        A design from :func:`lossbudget.load_design`.
+    design : Design or Variants
+        A design from :func:`lossbudget.load_design`, or design variants from
+        :func:`lossbudget.variants`: then every variant is solved over the same axes in one
+        vectorised solve, and every array of the budget gains a leading variant axis.
     vin : array_like
         Input voltage. [V]
     load : array_like, optional
@@ -1401,7 +1405,9 @@ def solve(
     Returns
     -------
     Budget
-        Losses, temperatures, stresses, flags over the broadcast grid.
+        Losses, temperatures, stresses, flags over the broadcast grid; for variants of shape
+        (variants, *grid), ``variant_labels`` naming them. Omitted axes take each variant's
+        own nominal (a varied ``operating.fsw``).
 
     Notes
     -----
@@ -1432,6 +1438,18 @@ def solve(
 def _solve(design, *, vin, load, load_fraction, vout, ambient, fsw, corner, outer) -> Budget:
     if corner not in ("typ", "worst"):
         raise ValueError(f"corner: expected 'typ' or 'worst', got {corner!r}")
+    if isinstance(design, Variants):
+        return _solve_variants(
+            design,
+            vin=vin,
+            load=load,
+            load_fraction=load_fraction,
+            vout=vout,
+            ambient=ambient,
+            fsw=fsw,
+            corner=corner,
+            outer=outer,
+        )
     coords, shape = _axes(
         design,
         vin=vin,
@@ -1449,13 +1467,194 @@ def _solve(design, *, vin, load, load_fraction, vout, ambient, fsw, corner, oute
         vin=flat.vin, vout=np.abs(flat.vout), load=flat.load, ambient=flat.ambient, fsw=flat.fsw
     )
     bad_vout = (sign * np.asarray(coords["vout"]).ravel()) <= 0
-    n = flat.vin.size
     statuses_raw = _statuses(ctx)
-    pieces = [
+    pieces = _solve_points(ctx, flat, statuses_raw)
+    return _assemble_budget(ctx, coords, shape, pieces, statuses_raw, bad_vout, corner)
+
+
+def _solve_points(ctx: _Context, flat: _Grid, statuses_raw) -> list:
+    """The chunks of a flat point set, each one vectorised evaluation."""
+    n = flat.vin.size
+    return [
         _solve_chunk(ctx, flat.take(slice(s, min(s + CHUNK, n))), statuses_raw)
         for s in range(0, n, CHUNK)
     ]
-    return _assemble_budget(ctx, coords, shape, pieces, statuses_raw, bad_vout, corner)
+
+
+def _variant_axes(vs: Variants, sd: Design, m: int, *, vin, load, load_fraction, vout, ambient,
+                  fsw, outer):
+    """Axes of shape (m, *grid) for one group: the grid given, nominals per variant."""
+    coords, shape = _axes(
+        vs.base,
+        vin=vin,
+        load=load,
+        load_fraction=load_fraction,
+        vout=vout,
+        ambient=ambient,
+        fsw=fsw,
+        outer=outer,
+    )
+    full = (m, *shape)
+    lead = (m,) + (1,) * len(shape)
+    op = sd.operating
+    out = {a: np.broadcast_to(coords[a], full) for a in AXES}
+    nominal = {"vout": (vout, op.vout.nom), "ambient": (ambient, op.ambient.nom),
+               "fsw": (fsw, op.fsw.nom)}
+    for a, (given, nom) in nominal.items():
+        if given is None and np.ndim(nom):
+            out[a] = np.broadcast_to(np.reshape(nom, lead), full)
+    if load is None and np.ndim(op.iout_rated):
+        frac = np.asarray(coords["load"]) / vs.base.operating.iout_rated
+        out["load"] = frac * np.reshape(op.iout_rated, lead)
+    return out, full
+
+
+def _solve_variants(vs: Variants, *, vin, load, load_fraction, vout, ambient, fsw, corner,
+                    outer) -> Budget:
+    """Every variant × the grid as one flat point set per structure group.
+
+    Each point carries its variant's index; the stacked design holds the differing part
+    values as arrays over the group's variants, taken per point in the evaluation. A loop
+    runs over the structure groups only (parts whose optional data differ in kind), never
+    over the variants.
+    """
+    budgets = []
+    groups = vs.groups()
+    for members in groups:
+        sd = stacked_design(vs, members)
+        m = members.size
+        coords, full = _variant_axes(
+            vs,
+            sd,
+            m,
+            vin=vin,
+            load=load,
+            load_fraction=load_fraction,
+            vout=vout,
+            ambient=ambient,
+            fsw=fsw,
+            outer=outer,
+        )
+        ctx = _context(sd, corner)
+        npts = int(np.prod(full[1:], dtype=np.int64))
+        sign = -1.0 if sd.topology == "buck-boost" else 1.0
+        flat = _Grid(
+            vin=np.ascontiguousarray(coords["vin"]).ravel().astype(float),
+            vout=np.abs(np.ascontiguousarray(coords["vout"]).ravel().astype(float)),
+            load=np.ascontiguousarray(coords["load"]).ravel().astype(float),
+            ambient=np.ascontiguousarray(coords["ambient"]).ravel().astype(float),
+            fsw=np.ascontiguousarray(coords["fsw"]).ravel().astype(float),
+            variant=np.repeat(np.arange(m), npts),
+        )
+        bad_vout = (sign * np.asarray(coords["vout"]).ravel()) <= 0
+        statuses_raw = _statuses(ctx)
+        pieces = _solve_points(ctx, flat, statuses_raw)
+        b = _assemble_budget(ctx, coords, full, pieces, statuses_raw, bad_vout, corner)
+        budgets.append(b)
+    return _join_variants(vs, budgets, groups)
+
+
+def _join_variants(vs: Variants, budgets: list[Budget], groups: list[np.ndarray]) -> Budget:
+    """One budget over all variants from the budgets of the structure groups."""
+    n = vs.size
+    first = budgets[0]
+    full = (n, *first.shape[1:])
+    labels = tuple(str(x) for x in vs.labels)
+
+    def fill(get, keys, blank):
+        out = {}
+        for k in keys:
+            like = next(get(b)[k] for b in budgets if k in get(b))
+            arr = np.full(full, blank, dtype=np.asarray(like).dtype if blank is not None
+                          else object)
+            for b, members in zip(budgets, groups, strict=True):
+                if k in get(b):
+                    arr[members] = np.broadcast_to(get(b)[k], b.shape)
+            out[k] = arr
+        return out
+
+    def keys_of(get):
+        seen: dict = {}
+        for b in budgets:
+            seen.update(dict.fromkeys(get(b)))
+        return list(seen)
+
+    def one(get, blank):
+        return fill(lambda b: {"x": get(b)}, ["x"], blank)["x"]
+
+    coords = fill(lambda b: b.coords, AXES, np.nan)
+    coords["variant"] = np.broadcast_to(
+        np.arange(n).reshape((n,) + (1,) * (len(full) - 1)), full
+    )
+    losses = fill(lambda b: b.losses, keys_of(lambda b: b.losses), np.nan)
+    statuses = {}
+    for key in keys_of(lambda b: b.statuses):
+        treat = {
+            (b.statuses[key].kind, b.statuses[key].note if b.statuses[key].kind != "computed"
+             else "")
+            for b in budgets if key in b.statuses
+        }
+        kinds = {k for k, _ in treat}
+        mixed = len(treat) > 1 or any(key not in b.statuses for b in budgets)
+        zr = np.full(full, "", dtype=object)
+        by_point = np.full(full, "", dtype=object) if mixed else None
+        for b, members in zip(budgets, groups, strict=True):
+            st = b.statuses.get(key)
+            if st is None:
+                by_point[members] = "not_applicable: not in this variant's design"
+            elif st.kind != "computed":
+                if mixed:
+                    by_point[members] = f"{st.kind}: {st.note}" if st.note else st.kind
+            elif st.zero_reason is not None:
+                zr[members] = np.broadcast_to(st.zero_reason, b.shape)
+        if "computed" in kinds or mixed:
+            statuses[key] = MechanismStatus(kind="computed", zero_reason=zr, by_point=by_point)
+            if key not in losses:
+                losses[key] = np.where(one(lambda b: b.flagged, True), np.nan, 0.0)
+            else:
+                losses[key] = np.where(np.isnan(losses[key]) & ~one(lambda b: b.flagged, True),
+                                       0.0, losses[key])
+        else:
+            st = next(b.statuses[key] for b in budgets if key in b.statuses)
+            statuses[key] = MechanismStatus(kind=st.kind, note=st.note)
+    limits = {}
+    for node in keys_of(lambda b: b.temperature_limits):
+        arr = np.full(n, np.nan)
+        for b, members in zip(budgets, groups, strict=True):
+            if node in b.temperature_limits:
+                arr[members] = np.broadcast_to(b.temperature_limits[node], members.shape)
+        limits[node] = arr
+    flags = fill(lambda b: b.flags, keys_of(lambda b: b.flags), False)
+    prov = dict(first.provenance)
+    prov["variants"] = {
+        "count": n,
+        "structure_groups": len(groups),
+        "parts_file": vs.source,
+        "slots": {s: [a.name for a in alts] for s, alts in vs.slots.items()},
+        "varied": {k: sorted({float(x) for x in v}) for k, v in vs.values.items()},
+    }
+    prov["notes"] = sorted({note for b in budgets for note in b.provenance["notes"]})
+    return Budget(
+        design_name=first.design_name,
+        topology=first.topology,
+        coords=coords,
+        losses=losses,
+        statuses=statuses,
+        temperatures=fill(lambda b: b.temperatures, keys_of(lambda b: b.temperatures), np.nan),
+        temperature_limits=limits,
+        stresses=fill(lambda b: b.stresses, keys_of(lambda b: b.stresses), np.nan),
+        output_power=one(lambda b: b.output_power, np.nan),
+        duty=one(lambda b: b.duty, np.nan),
+        d2=one(lambda b: b.d2, np.nan),
+        dcm=one(lambda b: b.dcm, False),
+        vout_pp=one(lambda b: b.vout_pp, np.nan),
+        flags=flags,
+        reason=one(lambda b: b.reason, ""),
+        provenance=prov,
+        source_input_power=one(lambda b: b.source_input_power, np.nan),
+        loop_gain=one(lambda b: b.loop_gain, np.nan),
+        variant_labels=labels,
+    )
 
 
 @dataclass(slots=True, kw_only=True)
@@ -1486,7 +1685,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     # nodes whose temperature changes some loss: the semiconductors and the winding always,
     # a capacitor bank only where its ESR is given over temperature
     heated = [ctx.nodes.index(p) for p in ("switch", "rectifier", "inductor")] + [
-        ctx.nodes.index(c.name) for c in ctx.caps if len(c.esr.t) > 1
+        ctx.nodes.index(c.name) for c in ctx.caps if np.shape(c.esr.t)[-1] > 1
     ]
 
     def power_of(temps, index):
@@ -1502,6 +1701,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
     not_conv = np.zeros(n, dtype=bool)
     gain = np.full(n, np.nan)
     if ok.size:
+        stack = ctx.network.transfer_resistance.ndim == 3
         sol = solve_coupled(
             power_of,
             ctx.network,
@@ -1509,6 +1709,7 @@ def _solve_chunk(ctx: _Context, g: _Grid, statuses_raw) -> _Chunk:
             tol=THERMAL_TOL,
             ceiling=CEILING,
             heated=heated,
+            transfer=ctx.network.transfer_resistance[g.variant[ok]] if stack else None,
         )
         temps[ok] = sol.temperatures
         diverging[ok] = sol.last_temperatures

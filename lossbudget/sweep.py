@@ -25,8 +25,9 @@ def sweep(design: Design, *, vin, load=None, load_fraction=None, vout=None, ambi
 
     Parameters
     ----------
-    design : Design
-        A design from :func:`lossbudget.load_design`.
+    design : Design or Variants
+        A design from :func:`lossbudget.load_design`, or variants from
+        :func:`lossbudget.variants` (the budget then leads with the variant axis).
     vin : array_like
         Input voltages (1-D). [V]
     load : array_like, optional

@@ -98,8 +98,8 @@ class ThermalNetwork:
         n = len(self.nodes)
         for name in ("conductance", "transfer_resistance"):
             value = getattr(self, name)
-            if not isinstance(value, np.ndarray) or value.shape != (n, n):
-                raise ValueError(f"{name} must be an ndarray of shape ({n}, {n})")
+            if not isinstance(value, np.ndarray) or value.shape[-2:] != (n, n):
+                raise ValueError(f"{name} must be an ndarray of shape (..., {n}, {n})")
 
     def index(self, name: str) -> int:
         """Position of a node in the matrices and in the last axis of the arrays.
@@ -207,7 +207,10 @@ def build_network(
     resistances : sequence of (str, str, float)
         ``(node_a, node_b, r)``: a resistance r between two nodes, or between a node and
         ``"ambient"``. Several between the same pair are in parallel. r positive and finite;
-        a JEDEC θ (see :class:`ThermalNetwork`), never a ΨJT. [K/W]
+        a JEDEC θ (see :class:`ThermalNetwork`), never a ΨJT. An r given as a 1-D array
+        (one value per design variant) makes the network a stack of networks of one
+        topology: the matrices gain a leading variant axis, shape (variants, n, n), factorised
+        together. [K/W]
 
     Returns
     -------
@@ -275,19 +278,23 @@ def build_network(
             problems.append(f"{label}: joins a node to itself")
             continue
         try:
-            r = float(r)
+            r = np.asarray(r, dtype=float)
         except (TypeError, ValueError):
             problems.append(f"{label}: expected a number in K/W, got {r!r}")
             continue
-        if not (np.isfinite(r) and r > 0.0):
+        if r.ndim > 1 or not np.all(np.isfinite(r) & (r > 0.0)):
             problems.append(f"{label}: expected a positive finite resistance in K/W, got {r!r}")
             continue
+        r = float(r) if r.ndim == 0 else r
+        if np.ndim(r) and np.ndim(conductance) == 2:
+            # one network per variant: a stack of matrices along a leading axis
+            conductance = np.repeat(conductance[np.newaxis], np.size(r), axis=0)
         g = 1.0 / r
         for a, b in ((node_a, node_b), (node_b, node_a)):
             if a != AMBIENT:
-                conductance[position[a], position[a]] += g
+                conductance[..., position[a], position[a]] += g
                 if b != AMBIENT:
-                    conductance[position[a], position[b]] -= g
+                    conductance[..., position[a], position[b]] -= g
         neighbours[node_a].add(node_b)
         neighbours[node_b].add(node_a)
         links.append((node_a, node_b, r))
@@ -315,8 +322,8 @@ def build_network(
             "span too wide a range"
         ) from None
     lower_inv = np.linalg.inv(lower)
-    transfer = lower_inv.T @ lower_inv
-    transfer = 0.5 * (transfer + transfer.T)
+    transfer = np.swapaxes(lower_inv, -1, -2) @ lower_inv
+    transfer = 0.5 * (transfer + np.swapaxes(transfer, -1, -2))
     conductance.setflags(write=False)
     transfer.setflags(write=False)
     return ThermalNetwork(
@@ -416,6 +423,7 @@ def solve_coupled(
     max_iter: int = 300,
     ceiling: float = 300.0,
     heated: Sequence[int | str] | None = None,
+    transfer: ArrayLike | None = None,
 ) -> CoupledSolution:
     """Coupled electro-thermal fixed point T = T_a + Z·P(T) over many points.
 
@@ -442,6 +450,11 @@ def solve_coupled(
         Nodes whose temperature the losses depend on (the Jacobian's columns); every node by
         default. Naming fewer saves loss-model calls; leaving out a node the losses do depend
         on understates the loop gain. [-]
+    transfer : array_like, shape (npoints, n, n), optional
+        Transfer resistances per operating point, where the points belong to design variants
+        whose networks share the topology of ``network`` but not its resistances (a stack
+        from :func:`build_network`, taken at each point's variant); ``network``'s own by
+        default. [K/W]
 
     Returns
     -------
@@ -515,8 +528,21 @@ def solve_coupled(
         raise ValueError(f"ceiling must be a finite temperature in degC, got {ceiling!r}")
     columns = _heated_columns(heated, network)
 
-    z = network.transfer_resistance
     npoints, n = ambient.size, len(network.nodes)
+    if transfer is None:
+        z = network.transfer_resistance
+        if z.ndim != 2:
+            raise ValueError("a stack of networks needs the per-point transfer resistances")
+    else:
+        z = np.asarray(transfer, dtype=float)
+        if z.shape != (npoints, n, n):
+            raise ValueError(f"transfer must have shape ({npoints}, {n}, {n}), got {z.shape}")
+
+    def rise(power, index):
+        if z.ndim == 2:
+            return power @ z.T
+        return np.einsum("pij,pj->pi", z[index], power)
+
     eps = np.finfo(float).eps
     accepted = np.full((npoints, n), np.nan)
     last = np.repeat(ambient[:, np.newaxis], n, axis=1)
@@ -538,7 +564,7 @@ def solve_coupled(
         t_old = last[active]
         power = _call_power(power_of, t_old, active, n)
         with np.errstate(invalid="ignore", over="ignore"):
-            t_new = ambient[active, np.newaxis] + power @ z.T
+            t_new = ambient[active, np.newaxis] + rise(power, active)
         iterations[active] = iteration
         bad = np.isnan(power).any(axis=1) | (np.isnan(t_new) | np.isneginf(t_new)).any(axis=1)
         hot = ~bad & (t_new > ceiling).any(axis=1)
@@ -591,10 +617,13 @@ def solve_coupled(
             with np.errstate(invalid="ignore"):
                 jacobian[:, :, k] = (p_pert - p_sol) / h[:, np.newaxis]
         finite = np.isfinite(p_sol).all(axis=1) & np.isfinite(jacobian).all(axis=(1, 2))
-        loop = z[columns, :] @ jacobian[finite]
+        if z.ndim == 2:
+            loop = z[columns, :] @ jacobian[finite]
+        else:
+            loop = z[solved[finite]][:, columns, :] @ jacobian[finite]
         rho = np.abs(np.linalg.eigvals(loop)).max(axis=-1) if loop.size else np.zeros(0)
         with np.errstate(invalid="ignore", over="ignore"):
-            t_final = network.temperatures(p_sol[finite], ambient=ambient[solved[finite]])
+            t_final = ambient[solved[finite], np.newaxis] + rise(p_sol[finite], solved[finite])
         ok = solved[finite]
         loop_gain[ok] = rho
         undefined[solved[~finite]] = True

@@ -26,25 +26,42 @@ def _line_through_points(x, *, xp, fp, slope_single):
 
     Shared by :func:`linear_in_temperature` and ``mosfet.rds_on_at`` (which applies it in
     log-log coordinates). One point gives the line of slope ``slope_single`` through it. The
-    points are design data, validated here once; ``x`` broadcasts.
+    points are design data, validated here once; ``x`` broadcasts. The points lie along the
+    last axis; a leading axis of ``xp`` or ``fp`` (one table per operating point, for points
+    of different design variants) broadcasts with ``x``.
     """
     xp = np.asarray(xp, dtype=float)
     fp = np.asarray(fp, dtype=float)
-    if xp.ndim != 1 or xp.size == 0 or fp.shape != xp.shape:
+    if (
+        xp.ndim not in (1, 2)
+        or fp.ndim not in (1, 2)
+        or xp.shape[-1] == 0
+        or fp.shape[-1] != xp.shape[-1]
+    ):
         raise ValueError(
             f"expected two 1-D sequences of equal, non-zero length, got shapes "
             f"{xp.shape} and {fp.shape}"
         )
     if not (np.all(np.isfinite(xp)) and np.all(np.isfinite(fp))):
         raise ValueError("the points must be finite")
-    if np.any(np.diff(xp) <= 0.0):
+    if np.any(np.diff(xp, axis=-1) <= 0.0):
         raise ValueError(f"the points must be strictly increasing, got {xp.tolist()}")
     x = np.asarray(x, dtype=float)
-    if xp.size == 1:
-        return fp[0] + slope_single * (x - xp[0])
-    slopes = np.diff(fp) / np.diff(xp)
-    k = np.clip(np.searchsorted(xp, x, side="right") - 1, 0, xp.size - 2)
-    return fp[k] + slopes[k] * (x - xp[k])
+    if xp.shape[-1] == 1:
+        return fp[..., 0] + slope_single * (x - xp[..., 0])
+    slopes = np.diff(fp, axis=-1) / np.diff(xp, axis=-1)
+    if xp.ndim == 1 and fp.ndim == 1:
+        k = np.clip(np.searchsorted(xp, x, side="right") - 1, 0, xp.size - 2)
+        return fp[k] + slopes[k] * (x - xp[k])
+    # one table per point: the same segment rule, the index counted along the points axis
+    k = np.clip(np.sum(x[..., np.newaxis] >= xp, axis=-1) - 1, 0, xp.shape[-1] - 2)
+    k = k[..., np.newaxis]
+
+    def at(table):
+        return np.take_along_axis(np.broadcast_to(table, (*k.shape[:-1], table.shape[-1])), k,
+                                  axis=-1)[..., 0]
+
+    return at(fp) + at(slopes) * (x - at(xp))
 
 
 def linear_in_temperature(

@@ -145,7 +145,7 @@ def rds_on_extrapolated(t_j: ArrayLike, *, t_points: ArrayLike) -> np.ndarray:
     ----------
     .. [1] SPEC §2.6 (extrapolation above the highest point is flagged); common practice.
     """
-    return _f(t_j) > np.max(_f(t_points))
+    return _f(t_j) > np.max(_f(t_points), axis=-1)
 
 
 def conduction_loss(r: ArrayLike, *, i_rms: ArrayLike) -> np.ndarray:
