@@ -1879,13 +1879,8 @@ def load_design(source: str | Path | dict) -> Design:
         checksum = hashlib.sha256(text.encode()).hexdigest()
         text = None
     elif isinstance(source, str | os.PathLike):
-        path = Path(source)
-        name = path.name
-        try:
-            data = path.read_bytes()
-        except OSError as exc:
-            raise DesignError(f"{path}: cannot read the design file ({exc.strerror})") from None
-        raw, text = _parse_toml(data, name)
+        name = Path(source).name
+        raw, text, data = read_toml_file(source, what="design file")
         checksum = hashlib.sha256(data).hexdigest()
     else:
         raise DesignError(
@@ -2041,6 +2036,17 @@ def _design(raw: Any, *, name: str, checksum: str, text: str | None) -> Design:
         text=text,
     )
     return design if factors is None else apply_calibration(design, factors)
+
+
+def read_toml_file(source: str | os.PathLike, *, what: str) -> tuple[dict, str, bytes]:
+    """The TOML document of a file, its text and its bytes, or a one-line DesignError."""
+    path = Path(source)
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise DesignError(f"{path}: cannot read the {what} ({exc.strerror})") from None
+    raw, text = _parse_toml(data, path.name)
+    return raw, text, data
 
 
 def _parse_toml(data: bytes, name: str) -> tuple[dict, str]:

@@ -34,7 +34,6 @@ from __future__ import annotations
 
 import dataclasses
 import os
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -42,7 +41,7 @@ from typing import Any
 import numpy as np
 
 from lossbudget import design as dmod
-from lossbudget.design import Curve, Design, Range, Value, load_design
+from lossbudget.design import Curve, Design, Range, Value, load_design, read_toml_file
 from lossbudget.errors import DesignError
 from lossbudget.units import format_quantity, glossary_dimension, parse_quantity
 
@@ -240,18 +239,8 @@ def read_parts(base: Design, parts) -> tuple[str, dict[str, tuple[Alternative, .
     if isinstance(parts, dict):
         name, raw = "<dict>", parts
     elif isinstance(parts, str | os.PathLike):
-        path = Path(parts)
-        name = path.name
-        try:
-            data = path.read_bytes()
-        except OSError as exc:
-            raise DesignError(f"{path}: cannot read the parts file ({exc.strerror})") from None
-        try:
-            raw = tomllib.loads(data.decode("utf-8"))
-        except UnicodeDecodeError:
-            raise DesignError(f"{name}: expected a UTF-8 text file") from None
-        except tomllib.TOMLDecodeError as exc:
-            raise DesignError(f"{name}: not valid TOML: {exc}") from None
+        name = Path(parts).name
+        raw, _, _ = read_toml_file(parts, what="parts file")
     else:
         raise DesignError(
             f"<{type(parts).__name__}>: expected a path to a TOML parts file or a dict"
